@@ -1,0 +1,1 @@
+"""Pure meteorology: each function states its units, formula and published source."""

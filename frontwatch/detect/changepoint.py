@@ -1,0 +1,127 @@
+"""Change-point scoring over a short multivariate window (pure numpy, no state).
+
+Model: each channel is piecewise constant around one change at index j, after removing the
+temperature/moisture/pressure drift fitted before all candidate onsets (days warm, so a breeze
+front's signature is a drop *against the trend*). The statistic for a split is the Gaussian
+likelihood-ratio of a mean shift with known noise, summed over channels:
+    S(j) = sum_c w_c ((mean_post - mean_pre) / sigma_c)^2 * n_pre n_post / (n_pre + n_post)
+(the two-segment L2 cost of e.g. Truong, Oudre & Vayatis 2020, 'Selective review of offline change
+point detection methods', for known variance). sqrt(S) is the strength in noise units.
+The onset is then moved back to where the change *starts*: the earliest sample from which the
+projection on the change direction stays above a quarter of the full change (a ramp's start, not
+its middle; a smoothed wind's running mean also starts moving at the true onset).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+# channel order: temperature, dewpoint, onshore wind component, alongshore component, pressure
+CHANNELS = ("temp", "dewpoint", "onshore", "alongshore", "pressure")
+FLOORS = np.array([0.06, 0.08, 0.25, 0.25, 0.05])  # smallest credible noise per channel (sensor resolution)
+START_FRACTION = 0.25
+
+
+@dataclass(frozen=True, slots=True)
+class Split:
+    onset_index: int  # index of the first 'after' sample
+    split_index: int  # index that maximised the statistic
+    strength: float  # sqrt(S) at the split, noise units
+    sigma: np.ndarray  # per-channel noise used
+    pre_mean: np.ndarray
+    slope: np.ndarray  # per-minute drift removed (per channel; zero for wind)
+    detrended: np.ndarray  # the window with that drift removed, NaN kept
+
+
+def _detrend_slopes(t: np.ndarray, x: np.ndarray, upto: int) -> np.ndarray:
+    """Least-squares drift per channel over samples [0, upto) for T, Td and p; wind gets none."""
+    slopes = np.zeros(x.shape[1])
+    if upto < 8:
+        return slopes
+    tm = t[:upto] / 60.0
+    for c in (0, 1, 4):
+        col = x[:upto, c]
+        ok = ~np.isnan(col)
+        if ok.sum() < 8:
+            continue
+        tt = tm[ok]
+        yy = col[ok]
+        tc = tt - tt.mean()
+        den = float(np.dot(tc, tc))
+        if den > 0:
+            # clamp: an extrapolated drift must stay physical (2 K per 10 min at most)
+            slopes[c] = float(np.clip(np.dot(tc, yy - yy.mean()) / den, -0.2, 0.2))
+    return slopes
+
+
+def _noise(x: np.ndarray) -> np.ndarray:
+    """Per-channel noise: the larger of the first-difference estimate and half the spread."""
+    d = np.abs(np.diff(x, axis=0))
+    with np.errstate(all="ignore"):
+        nd = 0.886 * np.nanmean(d, axis=0)  # white noise: E|diff| = 2 sigma / sqrt(pi)
+        sd = 0.5 * np.nanstd(x, axis=0)
+    nd = np.where(np.isnan(nd), np.inf, nd)
+    sd = np.where(np.isnan(sd), 0.0, sd)
+    return np.maximum(np.maximum(nd, sd), FLOORS)
+
+
+def best_split(
+    t: np.ndarray,
+    x: np.ndarray,
+    weights: np.ndarray,
+    first: int,
+    last: int,
+    baseline_s: float,
+    onset_weights: np.ndarray | None = None,
+) -> Split | None:
+    """Best single change with its first 'after' sample in [first, last] (indices into t).
+
+    `t` is seconds (any origin), `x` is (n, 5) with NaN for missing. Returns None when there is
+    too little data on either side.
+    """
+    n = len(t)
+    if n < 12 or first > last or first < 8:
+        return None
+    slope = _detrend_slopes(t, x, first)
+    tm = (t - t[first]) / 60.0
+    xd = x - tm[:, None] * slope[None, :]
+    valid = ~np.isnan(xd)
+    xz = np.where(valid, xd, 0.0)
+    cs = np.vstack([np.zeros((1, x.shape[1])), np.cumsum(xz, axis=0)])
+    cn = np.vstack([np.zeros((1, x.shape[1])), np.cumsum(valid, axis=0)])
+    sigma = _noise(xd[:first])
+    js = np.arange(first, last + 1)
+    lo = np.searchsorted(t, t[js] - baseline_s, side="left")
+    n_pre = cn[js] - cn[lo]
+    n_post = cn[n] - cn[js]
+    with np.errstate(all="ignore"):
+        m_pre = (cs[js] - cs[lo]) / n_pre
+        m_post = (cs[n] - cs[js]) / n_post
+        eff = n_pre * n_post / (n_pre + n_post)
+        z2 = ((m_post - m_pre) / sigma[None, :]) ** 2 * eff
+    ok = (n_pre >= 6) & (n_post >= 2)
+    z2 = np.where(ok & np.isfinite(z2), z2, 0.0)
+    s = z2 @ weights
+    k = int(np.argmax(s))
+    if s[k] <= 0:
+        return None
+    j = int(js[k])
+    pre_mean = m_pre[k]
+    delta = np.where(np.isfinite(m_post[k] - pre_mean), m_post[k] - pre_mean, 0.0)
+    ow = weights if onset_weights is None else onset_weights
+    wproj = ow * delta / sigma**2
+    den = float(np.dot(wproj, delta))
+    onset = j
+    if den > 0:
+        dev = np.where(valid, xd - pre_mean[None, :], 0.0)
+        frac = (dev @ wproj) / den
+        i = j
+        while i - 1 >= first - 6 and i - 1 >= 1 and frac[i - 1] >= START_FRACTION:
+            i -= 1
+        onset = i
+        # the change must be under way at the onset sample itself
+        while onset < j and frac[onset] < START_FRACTION:
+            onset += 1
+    return Split(onset, j, float(np.sqrt(s[k])), sigma, pre_mean, slope, xd)

@@ -1,0 +1,133 @@
+"""Decide what a detected change is: breeze front, land breeze, gust front, cold front, wind shift.
+
+Scoring (how strong a change is) happens elsewhere; this module only weighs the physical
+signature measured around the change against the look-alikes of DOMAIN.md section 3:
+- gust front (Engerer, Stensrud & Coniglio 2008): big temperature drop, pressure jump, strong
+  gusts, rain;
+- synoptic cold front (Ahrens, Meteorology Today): dewpoint FALLS, wind shift, pressure rise;
+- land breeze (Ahrens): night, wind turns offshore, weak;
+- breeze front (Miller et al. 2003; Linacre & Geerts 1997): daytime, wind turns into the onshore
+  sector, temperature drops against the trend (or stops rising), moisture rises;
+- wind shift: a clear turn of a sustained wind that fits none of them (cf. FMH-1's 45 degrees).
+A decision may be 'wait': the signature is still forming (e.g. temperature still plunging, which
+may yet become a gust front, or a smoothed wind vane not yet turned).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from ..config import DetectorSettings
+
+
+@dataclass(frozen=True, slots=True)
+class Signature:
+    """What was measured around a candidate change (after minus before, drift removed)."""
+
+    strength: float  # change-point strength, noise units
+    minutes_after: float  # data minutes since the onset
+    local_hour: float
+    dir_before: float  # deg from; NaN if calm
+    dir_after: float
+    speed_before: float
+    speed_after: float
+    spread_after: float  # circular spread of the recent wind, deg
+    turn_deg: float  # smallest angle between before and after directions (NaN if either calm)
+    onshore_before: float  # onshore wind component, m/s
+    onshore_after: float
+    after_offset_deg: float  # |dir_after - onshore bearing|
+    before_offset_deg: float
+    temp_change: float
+    temp_rate: float  # degC/min over the last two minutes (negative = still falling)
+    dewpoint_change: float
+    pressure_change: float
+    pressure_jump: float  # max rise of pressure after onset vs before
+    gust_after: float
+    rain_after: float
+
+
+@dataclass(frozen=True, slots=True)
+class Decision:
+    kind: str | None  # None: nothing to report
+    confidence: float
+    wait: bool  # True: not yet decidable, look again next minute
+
+
+def _nz(x: float, default: float = 0.0) -> float:
+    return default if x != x else x
+
+
+def _logistic(x: float) -> float:
+    return 1.0 / (1.0 + math.exp(-x))
+
+
+def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bool) -> Decision:
+    dT = _nz(sig.temp_change)
+    dTd = _nz(sig.dewpoint_change)
+    dp = _nz(sig.pressure_jump)
+    gust = _nz(sig.gust_after)
+    rain = _nz(sig.rain_after)
+    rate = _nz(sig.temp_rate)
+    has_moist = sig.dewpoint_change == sig.dewpoint_change
+    calm_before = not sig.speed_before >= s.calm_ms
+    calm_after = not sig.speed_after >= s.calm_ms
+
+    # 1. Convective outflow: the strongest signature wins first.
+    gusty = gust >= s.gust_front_gust_ms
+    if (dT <= -s.gust_front_temp_drop_c and (gusty or dp >= 0.5 * s.gust_front_pressure_jump_hpa or rain > 0.2)) \
+            or (dp >= s.gust_front_pressure_jump_hpa and dT <= -1.5) \
+            or (dT <= -s.gust_front_temp_drop_c * 1.3) \
+            or (rain >= 1.0 and dT <= -1.5 and (gusty or dp >= 0.5)):
+        conf = _logistic(-dT / s.gust_front_temp_drop_c * 2 + dp + gust / s.gust_front_gust_ms - 1.5)
+        return Decision("gust_front", min(0.99, max(0.5, conf)), False)
+    # Still plunging, raining or jumping: it may yet turn out a gust front, so do not call it now.
+    if can_wait and (rate < -0.5 or rain > 0.2 or dp >= 0.6 * s.gust_front_pressure_jump_hpa or gusty):
+        return Decision(None, 0.0, True)
+
+    turned = (sig.turn_deg == sig.turn_deg and sig.turn_deg >= s.min_shift_deg) or (calm_before and not calm_after)
+    daytime = s.day_start_h <= sig.local_hour < s.day_end_h
+
+    # 2. Synoptic cold front: drier air behind a shift.
+    if has_moist and dTd <= -s.cold_front_dewpoint_fall_c and (turned or dp >= 0.8) and \
+            not (not daytime and sig.after_offset_deg > 180 - halfwidth and sig.speed_after <= s.land_breeze_max_ms
+                 and dTd > -2 * s.cold_front_dewpoint_fall_c and dp < 0.8):
+        conf = _logistic(-dTd / s.cold_front_dewpoint_fall_c + dp - 0.5)
+        return Decision("cold_front", min(0.99, max(0.5, conf)), False)
+
+    settled = sig.spread_after <= 60.0 and not calm_after
+
+    # 3. Land breeze: outside the day window, the wind turns offshore and stays weak.
+    offshore_after = sig.after_offset_deg >= 180.0 - halfwidth
+    offshore_before = sig.before_offset_deg >= 180.0 - halfwidth and not calm_before
+    if not daytime and offshore_after and not offshore_before and settled and sig.speed_after <= s.land_breeze_max_ms and \
+            (turned or sig.onshore_after - sig.onshore_before <= -1.0):
+        conf = _logistic((sig.after_offset_deg - (180.0 - halfwidth)) / 20.0 + sig.strength / 10.0 - 0.5)
+        return Decision("land_breeze", min(0.98, max(0.5, conf)), False)
+
+    # 4. Breeze front: daytime, onshore after (and it was not before), cooler against the trend, moister.
+    onshore_after = sig.after_offset_deg <= halfwidth
+    came_onshore = (turned and sig.before_offset_deg > 0.5 * halfwidth) or calm_before or \
+        (sig.onshore_after - sig.onshore_before >= 1.5)
+    # The marine air must show in the thermodynamics, not only in the vane: cooler against the trend
+    # (without drying), or clearly moister while at least not warming.
+    cooler = dT <= -s.breeze_min_temp_drop_c
+    moister = has_moist and dTd >= s.breeze_min_moisture_rise_c
+    not_drier = (not has_moist) or dTd >= -0.3
+    thermal = (cooler and not_drier) or (moister and dTd >= 1.5 * s.breeze_min_moisture_rise_c and dT <= -0.1)
+    if daytime and thermal:
+        if onshore_after and settled and came_onshore:
+            margin = (-dT / 1.0) + (dTd / 1.0) + (halfwidth - sig.after_offset_deg) / halfwidth + sig.strength / 8.0
+            return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 1.0))), False)
+        if can_wait:
+            # A smoothed vane, or a wind that has not settled yet: give it a few more minutes.
+            return Decision(None, 0.0, True)
+
+    # 5. A clear turn of a sustained wind that fits no other kind.
+    sustained = sig.speed_before >= 2.5 and sig.speed_after >= 2.5
+    if turned and sustained and sig.turn_deg >= 45.0 and settled:
+        if can_wait and sig.minutes_after < 6:
+            return Decision(None, 0.0, True)
+        conf = _logistic((sig.turn_deg - 45.0) / 30.0 + sig.strength / 10.0 - 1.0)
+        return Decision("wind_shift", min(0.95, max(0.4, conf)), False)
+    return Decision(None, 0.0, can_wait and sig.minutes_after < 4)

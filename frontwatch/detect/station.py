@@ -1,0 +1,231 @@
+"""The station detector: update(obs) -> PassageEvent | None, with bounded, serialisable state.
+
+Per observation it appends one row to a fixed-length ring and feeds a cheap gate; only when the
+gate opens (or a candidate is pending) does it score change points over the window and classify
+the signature. One prototype per network is cloned per station (its onshore bearing, sector and
+wind averaging are per station; the settings and local clock are shared).
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from collections import deque
+from datetime import tzinfo
+from typing import Any
+
+import numpy as np
+
+from ..config import DetectorSettings, StationConfig
+from ..events import PassageEvent
+from ..obs import Observation
+from ..timeutil import LocalClock
+from .changepoint import best_split
+from .classify import Signature, classify
+from .gate import Gate
+
+NAN = float("nan")
+RAD = math.pi / 180.0
+# Row layout in the ring: time, T, Td, onshore, alongshore, p, u, v, gust, rain
+_T, _TC, _TD, _ON, _AL, _P, _U, _V, _G, _R = range(10)
+WEIGHTS = np.array([1.0, 1.0, 1.0, 0.7, 0.5])
+RESET_GAP_S = 20 * 60.0  # after a silence this long the window restarts (no change point across it)
+
+
+def _dir_from(u: float, v: float) -> float:
+    if u == 0.0 and v == 0.0:
+        return NAN
+    return (math.degrees(math.atan2(-u, -v)) + 360.0) % 360.0
+
+
+def _angle(a: float, b: float) -> float:
+    """Smallest absolute angle between two bearings (NaN if either is NaN)."""
+    d = abs((a - b + 180.0) % 360.0 - 180.0)
+    return d
+
+
+class StationDetector:
+    """Online breeze-front detector for one station (see frontwatch.detect.changepoint/classify)."""
+
+    def __init__(self, settings: DetectorSettings, tz: tzinfo | None = None, southern: bool = False,
+                 station: StationConfig | None = None) -> None:
+        self.settings = settings
+        self.tz = tz
+        self.southern = southern
+        self.station = station
+        self.clock = LocalClock(tz)
+        self.maxlen = settings.baseline_min + settings.max_wait_min + 20
+        self.ring: deque[tuple[float, ...]] = deque(maxlen=self.maxlen)
+        self.gate = Gate()
+        self.pending = False
+        self.quiet_until = -1e18
+        self.last_onset: dict[str, float] = {}  # kind -> onset of the last event of that kind
+        if station is not None:
+            o = station.onshore_from_deg * RAD
+            self._sin_o, self._cos_o = math.sin(o), math.cos(o)
+            self.halfwidth = station.onshore_halfwidth_deg
+            self.averaging = station.wind_averaging_min
+            self.sid = station.id
+        else:
+            self._sin_o, self._cos_o, self.halfwidth, self.averaging, self.sid = 0.0, 1.0, 70.0, 1, "?"
+
+    def clone(self, station: StationConfig) -> StationDetector:
+        """A fresh detector for `station` with this prototype's settings and clock."""
+        return StationDetector(self.settings, self.tz, self.southern, station)
+
+    # ------------------------------------------------------------------ hot path
+    def update(self, obs: Observation) -> PassageEvent | None:
+        t = obs.time
+        ring = self.ring
+        if ring and t - ring[-1][_T] > RESET_GAP_S:
+            ring.clear()
+            self.pending = False
+            self.gate = Gate()
+        s = obs.wind_speed_ms
+        d = obs.wind_dir_deg
+        if s == s and d == d:
+            r = d * RAD
+            u = -s * math.sin(r)
+            v = -s * math.cos(r)
+        elif s == 0.0:
+            u = v = 0.0  # calm
+        else:
+            u = v = NAN
+        so, co = self._sin_o, self._cos_o
+        on = -(u * so + v * co)
+        al = -u * co + v * so
+        ring.append((t, obs.temp_c, obs.dewpoint_c, on, al, obs.pressure_hpa, u, v, obs.wind_gust_ms, obs.rain_mm))
+        opened = self.gate.update(obs.temp_c, obs.dewpoint_c, u, v)
+        if (opened or self.pending) and len(ring) >= 20:
+            with warnings.catch_warnings():
+                warnings.simplefilter("ignore", RuntimeWarning)  # empty slices of all-missing channels
+                return self._evaluate(t)
+        return None
+
+    # ------------------------------------------------------------------ scoring and deciding
+    def _evaluate(self, now: float) -> PassageEvent | None:
+        st = self.settings
+        arr = np.array(self.ring, dtype=float)
+        t = arr[:, _T]
+        x = arr[:, _TC:_P + 1]
+        earliest = max(now - st.max_wait_min * 60.0, self.quiet_until)
+        first = int(np.searchsorted(t, earliest, side="left"))
+        last = int(np.searchsorted(t, now - (st.confirm_min - 1) * 60.0, side="right")) - 1
+        w = WEIGHTS
+        ow = w if self.averaging <= 1 else w * np.array([1.0, 1.0, 0.3, 0.3, 0.5])
+        sp = best_split(t, x, w, first, last, st.baseline_min * 60.0, ow)
+        if sp is None or sp.strength < st.min_score:
+            self.pending = False
+            return None
+        o = sp.onset_index
+        t_o = t[o]
+        if t_o < self.quiet_until:
+            self.pending = False
+            return None
+        sig = self._signature(arr, sp, o, now)
+        can_wait = now - t_o < st.max_wait_min * 60.0
+        dec = classify(sig, st, self.halfwidth, can_wait)
+        if dec.kind is None:
+            self.pending = bool(dec.wait)
+            return None
+        self.pending = False
+        self.quiet_until = t_o + st.refractory_min * 60.0
+        if dec.kind in ("breeze_front", "land_breeze") and t_o - self.last_onset.get(dec.kind, -1e18) < st.repeat_min * 60:
+            return None  # the same regime going on (a wobble of the onshore wind), not a new passage
+        self.last_onset[dec.kind] = float(t_o)
+        conf = dec.confidence * (1.0 - math.exp(-sp.strength / st.min_score))
+        return PassageEvent(
+            station=self.sid, kind=dec.kind, onset=float(t_o), detected_at=float(now),
+            confidence=round(min(0.99, max(0.05, conf)), 3),
+            wind_dir_before_deg=None if sig.dir_before != sig.dir_before else sig.dir_before,
+            wind_dir_after_deg=None if sig.dir_after != sig.dir_after else sig.dir_after,
+            speed_change_ms=_opt(sig.speed_after - sig.speed_before),
+            temp_change_c=_opt(sig.temp_change), dewpoint_change_c=_opt(sig.dewpoint_change),
+            pressure_change_hpa=_opt(sig.pressure_change), speed_after_ms=_opt(sig.speed_after),
+            gust_after_ms=_opt(sig.gust_after), temp_after_c=_opt(float(np.nanmean(arr[-3:, _TC]))
+                                                                    if np.isfinite(arr[-3:, _TC]).any() else NAN),
+        )
+
+    def _signature(self, arr: np.ndarray, sp: Any, o: int, now: float) -> Signature:
+        st = self.settings
+        t = arr[:, _T]
+        t_o = t[o]
+        n = len(t)
+        pre_lo = int(np.searchsorted(t, t_o - st.baseline_min * 60.0, side="left"))
+        wind_lo = int(np.searchsorted(t, t_o - 15 * 60.0, side="left"))
+        rec_lo = max(o, n - 3)
+        xd = sp.detrended
+        with np.errstate(all="ignore"):
+            pre = np.nanmean(xd[pre_lo:o], axis=0) if o > pre_lo else np.full(5, NAN)
+            rec = np.nanmean(xd[rec_lo:], axis=0)
+            u0 = _nanmean(arr[wind_lo:o, _U])
+            v0 = _nanmean(arr[wind_lo:o, _V])
+            ur = _nanmean(arr[rec_lo:, _U])
+            vr = _nanmean(arr[rec_lo:, _V])
+        if self.averaging > 1 and ur == ur and u0 == u0:
+            # The station reports an A-minute running mean: after k minutes only k/A of the new wind
+            # is in it, so un-smear the latest mean towards the wind that is actually blowing.
+            k = (now - t_o) / 60.0 + 1.0
+            if k < self.averaging:
+                f = self.averaging / k
+                ur = u0 + (ur - u0) * f
+                vr = v0 + (vr - v0) * f
+        s0 = math.hypot(u0, v0) if u0 == u0 else NAN
+        s1 = math.hypot(ur, vr) if ur == ur else NAN
+        d0 = _dir_from(u0, v0) if s0 == s0 and s0 >= st.calm_ms else NAN
+        d1 = _dir_from(ur, vr) if s1 == s1 and s1 >= st.calm_ms else NAN
+        onshore = (math.degrees(math.atan2(self._sin_o, self._cos_o)) + 360.0) % 360.0
+        # spread of the recent wind: circular std of the per-sample directions (Mardia's sqrt(-2 ln R))
+        uu = arr[rec_lo:, _U]
+        vv = arr[rec_lo:, _V]
+        ss = np.hypot(uu, vv)
+        okw = np.isfinite(ss) & (ss > 0)
+        if okw.sum() >= 1:
+            rlen = math.hypot(float(np.mean(uu[okw] / ss[okw])), float(np.mean(vv[okw] / ss[okw])))
+            spread = math.degrees(math.sqrt(-2.0 * math.log(min(1.0, max(rlen, 1e-9)))))
+        else:
+            spread = 180.0
+        tc = arr[:, _TC]
+        rate = NAN
+        if n - 3 >= o and np.isfinite(tc[-1]) and np.isfinite(tc[-3]):
+            rate = (tc[-1] - tc[-3]) / ((t[-1] - t[-3]) / 60.0)
+        p_after = xd[o:, 4]
+        pj = float(np.nanmax(p_after) - pre[4]) if np.isfinite(p_after).any() and pre[4] == pre[4] else NAN
+        g = arr[o:, _G]
+        gust = float(np.nanmax(g)) if np.isfinite(g).any() else NAN
+        rr = arr[max(o - 5, 0):, _R]
+        rain = float(np.nansum(rr)) if np.isfinite(rr).any() else NAN
+        on0 = -(u0 * self._sin_o + v0 * self._cos_o) if u0 == u0 else NAN
+        on1 = -(ur * self._sin_o + vr * self._cos_o) if ur == ur else NAN
+        return Signature(
+            strength=sp.strength, minutes_after=(now - t_o) / 60.0, local_hour=self.clock.hour(t_o),
+            dir_before=d0, dir_after=d1, speed_before=s0, speed_after=s1, spread_after=spread,
+            turn_deg=_angle(d0, d1), onshore_before=on0, onshore_after=on1,
+            after_offset_deg=_angle(d1, onshore) if d1 == d1 else NAN,
+            before_offset_deg=_angle(d0, onshore) if d0 == d0 else 180.0,
+            temp_change=float(rec[0] - pre[0]), temp_rate=rate, dewpoint_change=float(rec[1] - pre[1]),
+            pressure_change=float(rec[4] - pre[4]), pressure_jump=pj, gust_after=gust, rain_after=rain,
+        )
+
+    # ------------------------------------------------------------------ state
+    def snapshot(self) -> dict[str, Any]:
+        return {"ring": [[None if v != v else v for v in row] for row in self.ring], "gate": self.gate.state(),
+                "pending": bool(self.pending), "quiet_until": self.quiet_until, "last_onset": dict(self.last_onset)}
+
+    def restore(self, snap: dict[str, Any]) -> None:
+        self.ring = deque((tuple(NAN if v is None else float(v) for v in row) for row in snap["ring"]),
+                          maxlen=self.maxlen)
+        self.gate = Gate()
+        self.gate.set_state(snap["gate"])
+        self.pending = bool(snap["pending"])
+        self.quiet_until = float(snap["quiet_until"])
+        self.last_onset = {k: float(v) for k, v in snap["last_onset"].items()}
+
+
+def _nanmean(a: np.ndarray) -> float:
+    ok = np.isfinite(a)
+    return float(a[ok].mean()) if ok.any() else NAN
+
+
+def _opt(x: float) -> float | None:
+    return None if x != x else float(x)

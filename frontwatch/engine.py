@@ -1,0 +1,139 @@
+"""The pure core: feed(obs) -> what it caused (passage events, site forecasts, alerts).
+
+No I/O, no clock, no globals. Time is the observation's own timestamp, so an offline replay and
+the live service give the same outputs for the same input. snapshot()/restore() round-trip the
+whole state as JSON-able data.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+from typing import Any, Protocol
+
+from .config import NetworkConfig
+from .detect.station import StationDetector
+from .events import PassageEvent
+from .obs import Observation
+from .qc import StationQC
+
+SNAPSHOT_VERSION = 1
+
+
+class Output(Protocol):
+    """Anything the core emits: it can render itself as its contract JSON object."""
+
+    def to_dict(self) -> dict[str, Any]: ...
+
+
+class EngineStats:
+    """Counters the shell reports (records, QC flags by reason, events by kind, unknown stations)."""
+
+    def __init__(self) -> None:
+        self.records = 0
+        self.used = 0
+        self.qc = Counter[str]()
+        self.events = Counter[str]()
+        self.unknown_stations = Counter[str]()
+        self.last_time: dict[str, float] = {}
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"records": self.records, "used": self.used, "qc": dict(self.qc), "events": dict(self.events),
+                "unknown_stations": dict(self.unknown_stations), "last_time": dict(self.last_time)}
+
+    @classmethod
+    def from_dict(cls, d: dict[str, Any]) -> EngineStats:
+        s = cls()
+        s.records = int(d["records"])
+        s.used = int(d["used"])
+        s.qc.update(d["qc"])
+        s.events.update(d["events"])
+        s.unknown_stations.update(d["unknown_stations"])
+        s.last_time.update(d["last_time"])
+        return s
+
+
+class Engine:
+    """Wires QC, one detector per station (cloned from one prototype) and the site watch."""
+
+    def __init__(self, config: NetworkConfig) -> None:
+        self.config = config
+        self.stats = EngineStats()
+        prototype = StationDetector(config.detector, tz=config.tz, southern=config.southern)
+        self.detectors: dict[str, StationDetector] = {}
+        self.qc: dict[str, StationQC] = {}
+        for st in config.stations:
+            self.detectors[st.id] = prototype.clone(st)
+            self.qc[st.id] = StationQC(config.qc, st.id)
+        self.watch = _make_watch(config)
+
+    def feed(self, obs: Observation) -> list[Output]:
+        """Take one observation (any station, event-time order per station) and return its outputs."""
+        stats = self.stats
+        stats.records += 1
+        det = self.detectors.get(obs.station)
+        if det is None:
+            stats.unknown_stations[obs.station] += 1
+            return []
+        clean, flags = self.qc[obs.station].check(obs)
+        if flags:
+            for f in flags:
+                stats.qc[f] += 1
+        if clean is None:
+            return []
+        stats.used += 1
+        stats.last_time[obs.station] = clean.time
+        out: list[Output] = []
+        ev = det.update(clean)
+        if ev is not None:
+            stats.events[ev.kind] += 1
+            out.append(ev)
+        if self.watch is not None:
+            out.extend(self.watch.observe(clean, ev))
+        return out
+
+    def feed_many(self, observations: Any) -> list[Output]:
+        out: list[Output] = []
+        for o in observations:
+            out.extend(self.feed(o))
+        return out
+
+    def events_only(self, outputs: list[Output]) -> list[PassageEvent]:
+        return [o for o in outputs if isinstance(o, PassageEvent)]
+
+    def snapshot(self) -> dict[str, Any]:
+        return {
+            "version": SNAPSHOT_VERSION,
+            "stats": self.stats.to_dict(),
+            "detectors": {k: d.snapshot() for k, d in self.detectors.items()},
+            "qc": {k: q.snapshot() for k, q in self.qc.items()},
+            "watch": self.watch.snapshot() if self.watch is not None else None,
+        }
+
+    @classmethod
+    def restore(cls, config: NetworkConfig, snap: dict[str, Any]) -> Engine:
+        from .errors import StateError
+
+        if snap.get("version") != SNAPSHOT_VERSION:
+            raise StateError(f"snapshot version {snap.get('version')!r}, expected {SNAPSHOT_VERSION}")
+        eng = cls(config)
+        eng.stats = EngineStats.from_dict(snap["stats"])
+        for k, d in snap["detectors"].items():
+            if k in eng.detectors:
+                eng.detectors[k].restore(d)
+        for k, q in snap["qc"].items():
+            if k in eng.qc:
+                eng.qc[k].restore(q)
+        if eng.watch is not None and snap.get("watch") is not None:
+            eng.watch.restore(snap["watch"])
+        return eng
+
+
+def _make_watch(config: NetworkConfig) -> Any:
+    """The network tracker and site alerts, when the network has sites (frontwatch.network)."""
+    if not config.sites:
+        return None
+    try:
+        from .network.watch import SiteWatch
+    except ImportError:  # tracking not built yet in this checkout
+        return None
+    return SiteWatch(config)

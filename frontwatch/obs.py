@@ -1,0 +1,203 @@
+"""The Observation type, unit conversion by field suffix, and decoding of one record (JSON or row).
+
+Units are converted once, here at the edge; everything downstream sees SI-ish canonical units
+(m/s, degC, hPa, mm) as plain floats, with NaN for a missing value.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from collections.abc import Callable, Iterable, Mapping
+from datetime import tzinfo
+from typing import Any, NamedTuple
+
+from .calc.moisture import dewpoint_from_rh
+from .errors import DecodeError
+from .timeutil import iso_z, parse_time
+
+NAN = float("nan")
+
+# Canonical quantity -> {suffix: converter to the canonical unit}
+_SPEED = {"ms": lambda x: x, "kt": lambda x: x * 0.514444, "mph": lambda x: x * 0.44704, "kmh": lambda x: x / 3.6}
+_TEMP = {"c": lambda x: x, "f": lambda x: (x - 32.0) * 5.0 / 9.0, "k": lambda x: x - 273.15}
+_PRES = {"hpa": lambda x: x, "inhg": lambda x: x * 33.8638866667, "pa": lambda x: x / 100.0, "kpa": lambda x: x * 10.0}
+
+UNIT_FIELDS: dict[str, dict[str, Callable[[float], float]]] = {
+    "wind_speed": _SPEED,
+    "wind_gust": _SPEED,
+    "temp": _TEMP,
+    "dewpoint": _TEMP,
+    "pressure": _PRES,
+}
+PLAIN_FIELDS = ("wind_dir_deg", "rh_pct", "rain_mm")
+CANONICAL = ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms", "temp_c", "dewpoint_c", "pressure_hpa", "rain_mm")
+
+
+def split_unit(name: str) -> tuple[str, Callable[[float], float]] | None:
+    """'wind_speed_kt' -> ('wind_speed_ms', knots->m/s); canonical names map to themselves."""
+    if name in PLAIN_FIELDS:
+        return name, lambda x: x
+    base, _, suffix = name.rpartition("_")
+    conv = UNIT_FIELDS.get(base, {}).get(suffix)
+    if conv is None:
+        return None
+    canon = {"wind_speed": "wind_speed_ms", "wind_gust": "wind_gust_ms", "temp": "temp_c",
+             "dewpoint": "dewpoint_c", "pressure": "pressure_hpa"}[base]
+    return canon, conv
+
+
+class Observation(NamedTuple):
+    """One station at one time, canonical units, NaN = missing. `time` is epoch seconds (UTC).
+
+    A NamedTuple rather than a dataclass: it is immutable and about five times cheaper to make,
+    which matters at hundreds of thousands of records per second.
+
+    Wind direction is the bearing the wind blows FROM (meteorological convention); a calm wind has
+    `wind_dir_deg` NaN and `wind_speed_ms` 0.
+    """
+
+    station: str
+    time: float
+    wind_dir_deg: float = NAN
+    wind_speed_ms: float = NAN
+    wind_gust_ms: float = NAN
+    temp_c: float = NAN
+    dewpoint_c: float = NAN
+    pressure_hpa: float = NAN
+    rain_mm: float = NAN
+
+    def to_record(self) -> dict[str, Any]:
+        """The canonical JSON record (DESIGN 3.1); missing values are null."""
+        out: dict[str, Any] = {"station": self.station, "time": iso_z(self.time)}
+        for f in CANONICAL:
+            v = getattr(self, f)
+            out[f] = None if v != v else round(v, 3)
+        return out
+
+
+def _number(value: Any, field: str) -> float:
+    """A JSON/CSV value -> float; None/'' -> NaN; anything not a finite number -> DecodeError."""
+    if value is None:
+        return NAN
+    if isinstance(value, bool):
+        raise DecodeError(f"expected a number, got {value!r}", field=field, code="wrong_type")
+    if isinstance(value, int | float):
+        x = float(value)
+    elif isinstance(value, str):
+        s = value.strip()
+        if s == "":
+            return NAN
+        try:
+            x = float(s)
+        except ValueError:
+            raise DecodeError(f"expected a number, got {value[:40]!r}", field=field, code="wrong_type") from None
+    else:
+        raise DecodeError(f"expected a number, got {type(value).__name__}", field=field, code="wrong_type")
+    if not math.isfinite(x):
+        raise DecodeError(f"value {value!r} is not a finite number", field=field, code="not_finite")
+    return x
+
+
+def decode_record(
+    rec: Mapping[str, Any],
+    *,
+    naive_tz: tzinfo | None = None,
+    columns: Mapping[str, str] | None = None,
+    station: str | None = None,
+) -> Observation:
+    """Decode one record (JSON object or CSV row as a dict) into an Observation.
+
+    `columns` maps foreign names to canonical ones (with a unit suffix, e.g. 'wind_speed_kt').
+    `station` is used when the record has no station field (e.g. the topic names it).
+    Unknown fields are ignored (a feed may carry more than we need); a wrong type is an error.
+    """
+    if not isinstance(rec, Mapping):
+        raise DecodeError(f"expected a JSON object, got {type(rec).__name__}", code="not_object")
+    vals: dict[str, float] = {}
+    rh = NAN
+    st: Any = station
+    tval: Any = None
+    for key, raw in rec.items():
+        name = columns.get(key, key) if columns else key
+        if name == "station":
+            st = raw
+            continue
+        if name == "time":
+            tval = raw
+            continue
+        su = split_unit(name)
+        if su is None:
+            continue
+        canon, conv = su
+        x = _number(raw, key)
+        if x == x:
+            x = conv(x)
+        if canon == "rh_pct":
+            rh = x
+        else:
+            vals[canon] = x
+    if not isinstance(st, str) or not st.strip():
+        raise DecodeError("missing or empty station id", field="station", code="no_station")
+    st = st.strip()
+    if tval is None or not isinstance(tval, str):
+        raise DecodeError("missing time (ISO 8601 text)", field="time", station=st, code="bad_time")
+    try:
+        t = parse_time(tval, naive_tz)
+    except (ValueError, OverflowError) as exc:
+        raise DecodeError(f"bad time {tval[:40]!r}: {exc}", field="time", station=st, code="bad_time") from None
+    td = vals.get("dewpoint_c", NAN)
+    tc = vals.get("temp_c", NAN)
+    if td != td and rh == rh and tc == tc and 0.0 < rh <= 100.5:
+        td = dewpoint_from_rh(tc, min(rh, 100.0))
+    wd = vals.get("wind_dir_deg", NAN)
+    ws = vals.get("wind_speed_ms", NAN)
+    if wd == wd:
+        if not 0.0 <= wd <= 360.0:
+            raise DecodeError(f"wind direction {wd} outside 0-360", field="wind_dir_deg", station=st,
+                              code="out_of_range")
+        wd = wd % 360.0
+    return Observation(st, t, wd, ws, vals.get("wind_gust_ms", NAN), tc, td,
+                       vals.get("pressure_hpa", NAN), vals.get("rain_mm", NAN))
+
+
+MAX_PAYLOAD_BYTES = 1_000_000
+
+
+def decode_payload(
+    payload: bytes | str,
+    *,
+    topic_station: str | None,
+    may_speak_for: Callable[[str], bool] | None = None,
+    naive_tz: tzinfo | None = None,
+) -> tuple[list[Observation], list[DecodeError]]:
+    """Decode an MQTT payload: one JSON record or an array of them.
+
+    A record naming a station other than `topic_station` is refused (code 'station_mismatch')
+    unless `may_speak_for(station)` is true (a gateway topic). Returns the good observations and
+    one error per refused record, so every refusal can be counted by reason.
+    """
+    if len(payload) > MAX_PAYLOAD_BYTES:
+        return [], [DecodeError(f"payload of {len(payload)} bytes exceeds {MAX_PAYLOAD_BYTES}",
+                                station=topic_station, code="too_large")]
+    try:
+        doc = json.loads(payload)
+    except (ValueError, UnicodeDecodeError) as exc:
+        return [], [DecodeError(f"malformed JSON: {exc}", station=topic_station, code="malformed_json")]
+    items: Iterable[Any] = doc if isinstance(doc, list) else [doc]
+    good: list[Observation] = []
+    bad: list[DecodeError] = []
+    for item in items:
+        try:
+            obs = decode_record(item, naive_tz=naive_tz, station=topic_station)
+        except DecodeError as err:
+            bad.append(err)
+            continue
+        if topic_station is not None and obs.station != topic_station and not (
+            may_speak_for is not None and may_speak_for(obs.station)
+        ):
+            bad.append(DecodeError(f"payload names station {obs.station!r} on the topic of {topic_station!r}",
+                                   station=topic_station, field="station", code="station_mismatch"))
+            continue
+        good.append(obs)
+    return good, bad

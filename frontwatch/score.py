@@ -26,6 +26,7 @@ import math
 from collections import Counter, defaultdict
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
+from pathlib import Path
 from typing import Any
 
 from .events import KINDS, PassageEvent
@@ -288,3 +289,32 @@ class Objective:
         if med is None:
             return base
         return base - self.delay_penalty_per_min * max(0.0, med / 60.0 - self.delay_free_min)
+
+
+def read_events(path: str | Path) -> list[PassageEvent]:
+    """Read an events JSONL file (one PassageEvent.to_dict() a line); errors name file and line."""
+    import json
+
+    from .errors import FrontwatchError
+
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
+        raise FrontwatchError(f"{p}: cannot read events file: {exc}") from None
+    out: list[PassageEvent] = []
+    for n, line in enumerate(text.splitlines(), start=1):
+        if not line.strip():
+            continue
+        try:
+            d = json.loads(line)
+            if not isinstance(d, dict):
+                raise ValueError(f"expected a JSON object, got {type(d).__name__}")
+            if d.get("type") not in (None, "event"):
+                continue  # a mixed outputs file: forecasts and alerts are not events
+            out.append(PassageEvent.from_dict(d))
+        except KeyError as exc:
+            raise FrontwatchError(f"{p}, line {n}: field {exc.args[0]!r} is missing") from None
+        except (ValueError, TypeError) as exc:
+            raise FrontwatchError(f"{p}, line {n}: {exc}") from None
+    return out

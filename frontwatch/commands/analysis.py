@@ -48,7 +48,7 @@ def _print_score(rep: ScoreReport, tz: Any) -> None:
     con.print(tab)
     t2 = Table("minutes (hits)", "n", "mean", "median", "mean |x|", "10 %", "90 %")
     for name, d in (("onset error", rep.onset_error), ("detection delay", rep.delay)):
-        t2.add_row(name, str(d.n), fmt_min(d.mean), fmt_min(d.median), fmt_min(d.mean_abs),
+        t2.add_row(name, str(d.n), fmt_min(d.mean), fmt_min(d.median), fmt_min(d.mean_abs, signed=False),
                    fmt_min(d.quantile(0.1)), fmt_min(d.quantile(0.9)))
     con.print(t2)
     cols = sorted({k for row in rep.confusion.values() for k in row} - {"none"}) + ["none"]

@@ -98,6 +98,9 @@ class DetectorSettings(_Strict):
     min_shift_deg: float = Field(35.0, ge=5, le=180)  # wind turn that counts as a shift for breeze fronts
     breeze_min_temp_drop_c: float = Field(0.3, ge=0)  # temperature drop vs the trend (or with moisture rise)
     breeze_min_moisture_rise_c: float = Field(0.3, ge=0)
+    # -dT + dTd (degC) of a breeze front: marine air is cooler and moister (Miller et al. 2003 report
+    # drops to -2.5 degC and mixing ratio +1-2 g/kg; 0.8 is a weak inland front, from memory)
+    breeze_min_marine_index_c: float = Field(0.8, ge=0)
     day_start_h: float = Field(8.0, ge=0, le=24)  # local hours when a breeze front may start
     day_end_h: float = Field(20.0, ge=0, le=24)
     gust_front_pressure_jump_hpa: float = Field(1.2, gt=0)  # Engerer et al. 2008: 2-4.5 hPa jumps

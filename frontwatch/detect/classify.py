@@ -105,20 +105,20 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         conf = _logistic((sig.after_offset_deg - (180.0 - halfwidth)) / 20.0 + sig.strength / 10.0 - 0.5)
         return Decision("land_breeze", min(0.98, max(0.5, conf)), False)
 
-    # 4. Breeze front: daytime, onshore after (and it was not before), cooler against the trend, moister.
+    # 4. Breeze front: daytime, the wind comes into the onshore sector from outside it (or from calm),
+    # and marine air arrives: cooler against the trend and moister. The 'marine index' -dT + dTd
+    # (degC) weighs both, so a strong drop with a small moisture rise counts like the reverse.
     onshore_after = sig.after_offset_deg <= halfwidth
-    came_onshore = (turned and sig.before_offset_deg > 0.5 * halfwidth) or calm_before or \
-        (sig.onshore_after - sig.onshore_before >= 1.5)
-    # The marine air must show in the thermodynamics, not only in the vane: cooler against the trend
-    # (without drying), or clearly moister while at least not warming.
-    cooler = dT <= -s.breeze_min_temp_drop_c
-    moister = has_moist and dTd >= s.breeze_min_moisture_rise_c
-    not_drier = (not has_moist) or dTd >= -0.3
-    thermal = (cooler and not_drier) or (moister and dTd >= 1.5 * s.breeze_min_moisture_rise_c and dT <= -0.1)
+    came_onshore = calm_before or (turned and sig.before_offset_deg > halfwidth) or \
+        (sig.before_offset_deg > 0.5 * halfwidth and sig.onshore_after - sig.onshore_before >= 1.5)
+    marine = -dT + dTd if has_moist else -2.0 * dT
+    thermal = marine >= s.breeze_min_marine_index_c and dT <= 0.1 and (not has_moist or dTd >= -0.2) and \
+        (dT <= -s.breeze_min_temp_drop_c or dTd >= s.breeze_min_moisture_rise_c)
     if daytime and thermal:
         if onshore_after and settled and came_onshore:
-            margin = (-dT / 1.0) + (dTd / 1.0) + (halfwidth - sig.after_offset_deg) / halfwidth + sig.strength / 8.0
-            return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 1.0))), False)
+            margin = marine / s.breeze_min_marine_index_c + (halfwidth - sig.after_offset_deg) / halfwidth \
+                + sig.strength / 8.0
+            return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 2.0))), False)
         if can_wait:
             # A smoothed vane, or a wind that has not settled yet: give it a few more minutes.
             return Decision(None, 0.0, True)

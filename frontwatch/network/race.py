@@ -1,0 +1,265 @@
+"""Race-course monitor: the wind at a course, against its axis, for a race committee.
+
+Per minute, from the site station's observations:
+- vector-mean direction (of the wind vectors), scalar mean speed and Yamartino (1984) direction spread
+  over the last 2, 5 and 10 minutes;
+- the 10-minute direction against the course axis (signed; positive = veered, clockwise of the axis);
+- the pattern over the last PATTERN_MIN minutes of one-minute directions: a 'persistent' shift (the
+  late mean moved away from the early mean by more than the oscillation explains), an 'oscillating'
+  wind (repeated crossings of the detrended mean, with period from the mean spacing of crossings and
+  amplitude sqrt(2) x the residual sd, as for a sinusoid), 'steady', or 'unsettled';
+- 'new breeze filled in and steady': the 10-minute wind is onshore, at speed, with a small spread,
+  and has stayed so for NEW_BREEZE_HOLD_MIN minutes; reported with the minute it first was so.
+A report goes out only when the summary changes meaningfully (pattern or new-breeze flag, which
+need PATTERN_HOLD_MIN minutes to be believed, or the 10-minute direction or spread moved by
+REPORT_DIR_DEG since the last report). Thresholds are common practice on race committees, not
+from a published source; they are module constants.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import deque
+from dataclasses import dataclass
+from typing import Any
+
+from ..calc.wind import angle_diff_deg, circular_mean_deg, in_sector, vector_mean, yamartino_sigma_deg
+from ..timeutil import iso_z
+
+WINDOWS_MIN = (2, 5, 10)
+PATTERN_MIN = 40
+PATTERN_MIN_POINTS = 20
+PERSIST_DEG = 10.0
+OSC_MIN_DEG = 4.0
+OSC_MIN_CROSSINGS = 3
+STEADY_SPREAD_DEG = 12.0
+NEW_BREEZE_MIN_MS = 2.0
+NEW_BREEZE_MAX_SPREAD_DEG = 15.0
+NEW_BREEZE_HOLD_MIN = 3
+NEW_BREEZE_LOSS_MIN = 5
+PATTERN_HOLD_MIN = 3
+REPORT_DIR_DEG = 5.0
+MAX_SAMPLES = 1200  # 10 minutes at up to 2 records a second
+
+
+def _r(x: float | None, nd: int = 1) -> float | None:
+    return None if x is None or x != x else round(float(x), nd)
+
+
+def _j(x: float) -> float | None:
+    """NaN -> None, so snapshots are strict JSON."""
+    return None if x != x else x
+
+
+def _f(x: float | None) -> float:
+    return math.nan if x is None else float(x)
+
+
+@dataclass(frozen=True, slots=True)
+class WindowStat:
+    minutes: int
+    dir_deg: float | None
+    spread_deg: float | None
+    speed_ms: float | None
+    n: int
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"minutes": self.minutes, "dir_deg": _r(self.dir_deg, 0), "spread_deg": _r(self.spread_deg),
+                "speed_ms": _r(self.speed_ms), "n": self.n}
+
+
+@dataclass(frozen=True, slots=True)
+class Pattern:
+    kind: str  # steady | oscillating | persistent | unsettled | unknown
+    trend_deg: float | None
+    period_min: float | None
+    amplitude_deg: float | None
+
+
+@dataclass(frozen=True, slots=True)
+class CourseReport:
+    """One race-course summary (type 'course'; docs/alerts.md)."""
+
+    site: str
+    issued_at: float
+    axis_deg: float
+    windows: tuple[WindowStat, ...]
+    shift_deg: float | None
+    pattern: Pattern
+    new_breeze: bool
+    new_breeze_since: float | None
+
+    def to_dict(self) -> dict[str, Any]:
+        p = self.pattern
+        return {
+            "type": "course",
+            "site": self.site,
+            "issued_at": iso_z(self.issued_at),
+            "axis_deg": self.axis_deg,
+            "windows": [w.to_dict() for w in self.windows],
+            "shift_deg": _r(self.shift_deg, 0),
+            "pattern": p.kind,
+            "trend_deg": _r(p.trend_deg, 0),
+            "oscillation_period_min": _r(p.period_min),
+            "oscillation_amplitude_deg": _r(p.amplitude_deg),
+            "new_breeze": self.new_breeze,
+            "new_breeze_since": None if self.new_breeze_since is None else iso_z(self.new_breeze_since),
+        }
+
+
+def window_stat(samples: list[tuple[float, float, float]], now: float, minutes: int) -> WindowStat:
+    """Vector-mean direction, Yamartino spread and scalar mean speed of samples (t, dir, speed) in
+    the `minutes` before `now`. Calm samples (NaN direction) count in the speed only."""
+    t0 = now - minutes * 60.0
+    dirs = []
+    spd = []
+    for t, d, s in samples:
+        if t >= t0:
+            if s == s:
+                spd.append(s)
+            if d == d:
+                dirs.append(d)
+    if not spd and not dirs:
+        return WindowStat(minutes, None, None, None, 0)
+    pairs = [(s, d) for t, d, s in samples if t >= t0 and s == s and (d == d or s == 0.0)]
+    _, vdir = vector_mean([p[0] for p in pairs], [p[1] for p in pairs]) if pairs else (math.nan, math.nan)
+    if vdir != vdir and dirs:
+        vdir = circular_mean_deg(dirs)
+    return WindowStat(minutes, None if vdir != vdir else vdir,
+                      yamartino_sigma_deg(dirs) if dirs else None,
+                      sum(spd) / len(spd) if spd else None, len(spd))
+
+
+def analyse_pattern(minute_dirs: list[tuple[float, float]]) -> Pattern:
+    """Classify one-minute directions [(t, dir)] as persistent shift / oscillation / steady / unsettled."""
+    pts = [(t, d) for t, d in minute_dirs if d == d]
+    if len(pts) < PATTERN_MIN_POINTS:
+        return Pattern("unknown", None, None, None)
+    ref = circular_mean_deg([d for _, d in pts])
+    ts = [(t - pts[0][0]) / 60.0 for t, _ in pts]
+    rs = [angle_diff_deg(d, ref) for _, d in pts]
+    n = len(rs)
+    k = max(n // 4, 5)
+    trend = sum(rs[-k:]) / k - sum(rs[:k]) / k
+    # Linear detrend, then the residual's sd and crossings of zero (with a small dead band).
+    tm = sum(ts) / n
+    rm = sum(rs) / n
+    stt = sum((t - tm) ** 2 for t in ts)
+    b = sum((t - tm) * (r - rm) for t, r in zip(ts, rs, strict=True)) / stt if stt > 0 else 0.0
+    e = [r - rm - b * (t - tm) for t, r in zip(ts, rs, strict=True)]
+    sd = math.sqrt(sum(x * x for x in e) / n)
+    amp = math.sqrt(2.0) * sd
+    band = 0.3 * sd
+    crossings: list[float] = []
+    sign = 0
+    last_t = last_e = None
+    for t, x in zip(ts, e, strict=True):
+        s = 1 if x > band else (-1 if x < -band else 0)
+        if s != 0:
+            if sign != 0 and s != sign and last_t is not None and last_e is not None:
+                crossings.append(last_t + (t - last_t) * (last_e / (last_e - x)) if last_e != x else t)
+            sign = s
+            last_t, last_e = t, x
+    period = None
+    if len(crossings) >= 2:
+        period = 2.0 * (crossings[-1] - crossings[0]) / (len(crossings) - 1)
+    if abs(trend) >= PERSIST_DEG and abs(trend) >= 1.5 * amp:
+        return Pattern("persistent", trend, None, None)
+    if len(crossings) >= OSC_MIN_CROSSINGS and amp >= OSC_MIN_DEG:
+        return Pattern("oscillating", trend, period, amp)
+    y = yamartino_sigma_deg([d for _, d in pts[-10:]])
+    return Pattern("steady" if y <= STEADY_SPREAD_DEG else "unsettled", trend, None, None)
+
+
+class CourseMonitor:
+    """The race-course monitor of one site (fed its station's observations)."""
+
+    def __init__(self, site: str, axis_deg: float, onshore_from_deg: float, onshore_halfwidth_deg: float) -> None:
+        self.site = site
+        self.axis_deg = axis_deg
+        self.onshore_from_deg = onshore_from_deg
+        self.halfwidth = onshore_halfwidth_deg
+        self.samples: deque[tuple[float, float, float]] = deque(maxlen=MAX_SAMPLES)
+        self.minutes: deque[tuple[float, float]] = deque(maxlen=PATTERN_MIN)
+        self.pattern_kind = "unknown"  # the reported (debounced) pattern
+        self.pattern_candidate = "unknown"
+        self.pattern_count = 0
+        self.breeze_run_start: float | None = None
+        self.breeze_run_len = 0
+        self.breeze_fail = 0
+        self.new_breeze_since: float | None = None
+        self.last_report: tuple[str, bool, float | None, float | None] | None = None
+
+    def add(self, t: float, dir_deg: float, speed_ms: float) -> None:
+        self.samples.append((t, dir_deg, speed_ms))
+
+    def tick(self, now: float) -> CourseReport | None:
+        """Once a data minute: update the summary; returns a report when it changed meaningfully."""
+        while self.samples and self.samples[0][0] < now - 600.0:
+            self.samples.popleft()
+        smp = list(self.samples)
+        one = window_stat(smp, now, 1)
+        self.minutes.append((now, math.nan if one.dir_deg is None else one.dir_deg))
+        wins = tuple(window_stat(smp, now, m) for m in WINDOWS_MIN)
+        w10 = wins[-1]
+        shift = None if w10.dir_deg is None else angle_diff_deg(w10.dir_deg, self.axis_deg)
+        pat = analyse_pattern(list(self.minutes))
+        if pat.kind == self.pattern_candidate:
+            self.pattern_count += 1
+        else:
+            self.pattern_candidate, self.pattern_count = pat.kind, 1
+        if self.pattern_count >= PATTERN_HOLD_MIN:
+            self.pattern_kind = pat.kind
+        ok = (w10.dir_deg is not None and w10.spread_deg is not None and w10.speed_ms is not None
+              and w10.speed_ms >= NEW_BREEZE_MIN_MS and w10.spread_deg <= NEW_BREEZE_MAX_SPREAD_DEG
+              and in_sector(w10.dir_deg, self.onshore_from_deg, self.halfwidth))
+        if ok:
+            self.breeze_fail = 0
+            if self.breeze_run_start is None:
+                self.breeze_run_start = now
+                self.breeze_run_len = 0
+            self.breeze_run_len += 1
+            if self.new_breeze_since is None and self.breeze_run_len >= NEW_BREEZE_HOLD_MIN:
+                self.new_breeze_since = self.breeze_run_start
+        else:
+            self.breeze_fail += 1
+            if self.new_breeze_since is None:
+                self.breeze_run_start = None
+            elif self.breeze_fail >= NEW_BREEZE_LOSS_MIN:
+                self.new_breeze_since = None
+                self.breeze_run_start = None
+        if self.pattern_kind != pat.kind:
+            pat = Pattern(self.pattern_kind, pat.trend_deg, None, None)
+        key = (self.pattern_kind, self.new_breeze_since is not None, w10.dir_deg, w10.spread_deg)
+        last = self.last_report
+        if last is not None and last[0] == key[0] and last[1] == key[1]:
+            moved = False
+            if (key[2] is None) != (last[2] is None):
+                moved = True
+            elif key[2] is not None and last[2] is not None:
+                moved = abs(angle_diff_deg(key[2], last[2])) >= REPORT_DIR_DEG
+            if key[3] is not None and last[3] is not None and abs(key[3] - last[3]) >= REPORT_DIR_DEG:
+                moved = True
+            if not moved:
+                return None
+        if w10.n == 0 and last is None:
+            return None
+        self.last_report = key
+        return CourseReport(self.site, now, self.axis_deg, wins, shift,
+                            pat if pat.kind == self.pattern_kind else Pattern(self.pattern_kind, None, None, None),
+                            self.new_breeze_since is not None, self.new_breeze_since)
+
+    def snapshot(self) -> dict[str, Any]:
+        return {"samples": [[_j(v) for v in s] for s in self.samples],
+                "minutes": [[_j(v) for v in m] for m in self.minutes],
+                "pattern": [self.pattern_kind, self.pattern_candidate, self.pattern_count],
+                "breeze": [self.breeze_run_start, self.breeze_run_len, self.breeze_fail, self.new_breeze_since],
+                "last_report": None if self.last_report is None else list(self.last_report)}
+
+    def restore(self, s: dict[str, Any]) -> None:
+        self.samples = deque(((_f(a), _f(b), _f(c)) for a, b, c in s["samples"]), maxlen=MAX_SAMPLES)
+        self.minutes = deque(((_f(a), _f(b)) for a, b in s["minutes"]), maxlen=PATTERN_MIN)
+        self.pattern_kind, self.pattern_candidate, self.pattern_count = s["pattern"]
+        self.breeze_run_start, self.breeze_run_len, self.breeze_fail, self.new_breeze_since = s["breeze"]
+        lr = s["last_report"]
+        self.last_report = None if lr is None else (lr[0], lr[1], lr[2], lr[3])

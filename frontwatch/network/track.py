@@ -1,0 +1,235 @@
+"""Group stations' breeze-front passages into fronts, fit each front's motion, and detect stalls.
+
+A passage joins an open front when its onset is where that front's fit (or prior) puts the front at
+that station, within a tolerance, and the station is near the front's other stations; otherwise it
+starts a new front. Each station appears at most once in a front. A front is 'stalled' when a
+station it should have reached by now (past a margin) reports nothing while its data still flow,
+and no station further along has reported (then it was a missed detection, not a stall).
+
+State is a few fronts, each holding at most one arrival per station: bounded by the network size.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from ..events import PassageEvent
+from ..timeutil import compact_z
+from .fit import FrontFit, fit_front
+from .prior import PassageFacts, density_prior
+
+JOIN_TOL_S = 20 * 60.0  # an onset this close to the prediction (or 3 sd) joins the front
+JOIN_SIGMAS = 3.0
+LINK_M = 60_000.0  # a joining station is at most this far from one already in the front
+OVERDUE_MIN_S = 15 * 60.0  # a station is overdue this long (or 2.5 sd) after its predicted time
+OVERDUE_SIGMAS = 2.5
+STATION_UP_S = 15 * 60.0  # a station counts as reporting if its data are this fresh
+FRONT_TTL_S = 4 * 3600.0  # a front with no new passage for this long is closed
+MAX_FRONTS = 12
+
+
+@dataclass(frozen=True, slots=True)
+class Arrival:
+    """One station's passage as part of a front (positions in local metres)."""
+
+    station: str
+    x: float
+    y: float
+    onset: float
+    detected_at: float
+    confidence: float
+    shore_to_deg: float
+    dir_before_deg: float | None
+    dir_after_deg: float | None
+    speed_before_ms: float | None
+    speed_after_ms: float | None
+    gust_after_ms: float | None
+    temp_change_c: float | None
+    temp_after_c: float | None
+
+    def to_state(self) -> list[Any]:
+        return [getattr(self, f) for f in self.__slots__]
+
+    @classmethod
+    def from_state(cls, s: list[Any]) -> Arrival:
+        return cls(*s)
+
+
+def _num(x: float | None) -> float | None:
+    return None if x is None or x != x else float(x)
+
+
+def arrival_from_event(ev: PassageEvent, x: float, y: float, onshore_from_deg: float) -> Arrival:
+    sb = None
+    if ev.speed_after_ms is not None and ev.speed_change_ms is not None:
+        sb = _num(ev.speed_after_ms - ev.speed_change_ms)
+    return Arrival(ev.station, x, y, ev.onset, ev.detected_at, ev.confidence, (onshore_from_deg + 180.0) % 360.0,
+                   _num(ev.wind_dir_before_deg), _num(ev.wind_dir_after_deg), sb, _num(ev.speed_after_ms),
+                   _num(ev.gust_after_ms), _num(ev.temp_change_c), _num(ev.temp_after_c))
+
+
+@dataclass
+class Front:
+    """One front: its arrivals (station -> Arrival), its fit, and its stall state."""
+
+    key: str
+    arrivals: dict[str, Arrival] = field(default_factory=dict)
+    last_change: float = 0.0  # data time of the last arrival that joined
+    stalled_at: float | None = None
+    overdue: list[str] = field(default_factory=list)
+    fit: FrontFit | None = None
+    # (deadline, station) of stations not yet reached, further along than any reached one, soonest
+    # first: the station is overdue after its deadline (set from the fit at each new arrival).
+    deadlines: list[tuple[float, str]] = field(default_factory=list)
+
+    def refit(self) -> None:
+        pts = [(a.x, a.y, a.onset) for a in self.arrivals.values()]
+        prior = density_prior(
+            PassageFacts(a.shore_to_deg, a.temp_change_c, a.temp_after_c, a.dir_before_deg, a.speed_before_ms)
+            for a in self.arrivals.values()
+        )
+        self.fit = fit_front(pts, prior)
+
+    @property
+    def basis(self) -> str:
+        return "fit" if self.fit is not None and not self.fit.used_prior else "prior"
+
+    @property
+    def first_onset(self) -> float:
+        return min(a.onset for a in self.arrivals.values())
+
+    def max_progress(self) -> float:
+        f = self.fit
+        assert f is not None
+        return max(f.progress(a.x, a.y) for a in self.arrivals.values())
+
+    def to_state(self) -> dict[str, Any]:
+        return {"key": self.key, "arrivals": [a.to_state() for a in self.arrivals.values()],
+                "last_change": self.last_change, "stalled_at": self.stalled_at, "overdue": list(self.overdue),
+                "deadlines": [list(d) for d in self.deadlines]}
+
+    @classmethod
+    def from_state(cls, s: dict[str, Any]) -> Front:
+        arr = [Arrival.from_state(a) for a in s["arrivals"]]
+        f = cls(key=s["key"], arrivals={a.station: a for a in arr}, last_change=float(s["last_change"]),
+                stalled_at=s["stalled_at"], overdue=list(s["overdue"]),
+                deadlines=[(float(d[0]), str(d[1])) for d in s["deadlines"]])
+        f.refit()
+        return f
+
+
+class FrontTracker:
+    """The open fronts of a network. `positions` maps station id -> (x, y, onshore_from_deg)."""
+
+    def __init__(self, positions: dict[str, tuple[float, float, float]]) -> None:
+        self.positions = positions
+        self.fronts: list[Front] = []
+        self._ids = list(positions)
+        self._x = np.array([positions[k][0] for k in self._ids], dtype=float)
+        self._y = np.array([positions[k][1] for k in self._ids], dtype=float)
+
+    def add(self, ev: PassageEvent) -> Front | None:
+        """Add a breeze-front passage; returns the front it joined or started (None if unknown station)."""
+        pos = self.positions.get(ev.station)
+        if pos is None:
+            return None
+        arr = arrival_from_event(ev, pos[0], pos[1], pos[2])
+        best: Front | None = None
+        best_z = math.inf
+        for fr in self.fronts:
+            if ev.station in fr.arrivals or fr.fit is None:
+                continue
+            if min(math.hypot(a.x - arr.x, a.y - arr.y) for a in fr.arrivals.values()) > LINK_M:
+                continue
+            t_pred, sd = fr.fit.arrival(arr.x, arr.y)
+            tol = max(JOIN_TOL_S, JOIN_SIGMAS * sd)
+            err = abs(arr.onset - t_pred)
+            if fr.stalled_at is not None and arr.onset > t_pred:
+                # A stalled front that moves on later: accept a late arrival further along.
+                err = 0.0 if fr.fit.progress(arr.x, arr.y) > fr.max_progress() else err
+            if err <= tol and err / tol < best_z:
+                best, best_z = fr, err / tol
+        if best is None:
+            best = Front(key=f"{ev.station}-{compact_z(ev.onset)}")
+            self.fronts.append(best)
+            if len(self.fronts) > MAX_FRONTS:
+                self.fronts.pop(0)
+        best.arrivals[ev.station] = arr
+        best.last_change = ev.detected_at
+        best.stalled_at = None
+        best.overdue = []
+        best.refit()
+        self._set_deadlines(best)
+        return best
+
+    def _set_deadlines(self, fr: Front) -> None:
+        f = fr.fit
+        fr.deadlines = []
+        if f is None or not self._ids:
+            return
+        dx = self._x - f.ref[0]
+        dy = self._y - f.ref[1]
+        t = f.t0 + f.sx * dx + f.sy * dy
+        c = np.array(f.cov)
+        var = c[0, 0] + 2 * c[0, 1] * dx + 2 * c[0, 2] * dy + c[1, 1] * dx * dx + 2 * c[1, 2] * dx * dy + c[2, 2] * dy * dy
+        sd = np.sqrt(np.maximum(var, 0.0))
+        s = math.hypot(f.sx, f.sy)
+        prog = (f.sx * dx + f.sy * dy) / s if s > 0 else np.zeros_like(dx)
+        reach = fr.max_progress()
+        first = fr.first_onset
+        ok = (t >= first) & (prog > reach)
+        dl = t + np.maximum(OVERDUE_MIN_S, OVERDUE_SIGMAS * sd)
+        for i in np.nonzero(ok)[0]:
+            sid = self._ids[i]
+            if sid not in fr.arrivals:
+                fr.deadlines.append((float(dl[i]), sid))
+        fr.deadlines.sort()
+
+    def check_stalls(self, now: float, last_seen: dict[str, float]) -> list[Front]:
+        """Mark fronts that stalled by `now`; returns the fronts whose stall state changed.
+
+        Cheap when nothing is due: each front keeps its stations' deadlines sorted.
+        """
+        changed = []
+        for fr in self.fronts:
+            if fr.stalled_at is not None or not fr.deadlines or now <= fr.deadlines[0][0]:
+                continue
+            overdue = [sid for dl, sid in fr.deadlines
+                       if dl < now and now - last_seen.get(sid, -math.inf) <= STATION_UP_S]
+            if overdue:
+                fr.stalled_at = now
+                fr.overdue = sorted(overdue)
+                changed.append(fr)
+            else:  # only silent stations are past due: drop them, wait for the next deadline
+                fr.deadlines = [d for d in fr.deadlines if d[0] >= now]
+        return changed
+
+    def stall_progress(self, fr: Front) -> float | None:
+        """Progress (m along the motion) beyond which the stalled front is not expected; None if moving."""
+        if fr.stalled_at is None or fr.fit is None or not fr.overdue:
+            return None
+        f = fr.fit
+        return min(f.progress(*self.positions[s][:2]) for s in fr.overdue)
+
+    def expire(self, now: float) -> list[Front]:
+        """Close fronts with no new passage for FRONT_TTL_S; returns them."""
+        gone = [fr for fr in self.fronts if now - fr.last_change > FRONT_TTL_S]
+        if gone:
+            self.fronts = [fr for fr in self.fronts if now - fr.last_change <= FRONT_TTL_S]
+        return gone
+
+    def get(self, key: str) -> Front | None:
+        for fr in self.fronts:
+            if fr.key == key:
+                return fr
+        return None
+
+    def snapshot(self) -> list[dict[str, Any]]:
+        return [fr.to_state() for fr in self.fronts]
+
+    def restore(self, snap: list[dict[str, Any]]) -> None:
+        self.fronts = [Front.from_state(s) for s in snap]

@@ -1,0 +1,268 @@
+"""SiteWatch: the network part of the core. Passage events in; site forecasts, alerts and race-course
+reports out.
+
+The engine calls observe(obs, event) for every clean observation. The common path (no passage, same
+data minute, a station no site watches) is a dict store and two comparisons. A breeze-front passage
+updates the front tracker and then every site's forecast and alert. Work that depends on the clock
+(stalls, overdue sites, imminent, clear, race-course summaries) runs once per data minute. Data
+time only; state is bounded by the numbers of stations, sites and open fronts.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+from typing import Any
+
+from ..alerts.lifecycle import ACTIVE, AlertMessage, SiteAlerts
+from ..calc.geo import haversine_m, local_xy_m
+from ..calc.wind import wind_components, wind_direction
+from ..config import NetworkConfig, SiteConfig
+from ..events import PassageEvent
+from ..obs import Observation
+from .forecast import EXPECTED, NOT_EXPECTED, SiteForecast, forecast_for_site
+from .race import CourseMonitor, CourseReport
+from .track import FRONT_TTL_S, STATION_UP_S, Front, FrontTracker
+
+SITE_STATION_MAX_M = 5000.0  # the nearest station stands for a site only this close
+ARRIVAL_MATCH_S = 30 * 60.0  # a passage at the site's station this long before a front's first onset still counts
+DIR_EMA_ALPHA = 0.1  # weight of a new record in the site station's running wind (about 10 records)
+
+Output = SiteForecast | AlertMessage | CourseReport
+
+
+class _Site:
+    """Per-site state: its place, station, the front it follows, its last forecast and its alerts.
+
+    `station` confirms arrivals: the configured one, or the nearest within SITE_STATION_MAX_M. A site
+    with none is 'arrived' (estimated) once a station at least as far along the front has reported.
+    """
+
+    def __init__(self, cfg: SiteConfig, x: float, y: float, station: str | None, alerts: SiteAlerts) -> None:
+        self.cfg = cfg
+        self.x = x
+        self.y = y
+        self.station = station
+        self.alerts = alerts
+        self.front: str | None = None
+        self.last_fc: SiteForecast | None = None
+
+
+def nearest_station(config: NetworkConfig, lat: float, lon: float) -> tuple[str, float]:
+    """(id, distance m) of the station nearest to (lat, lon)."""
+    best = min(config.stations, key=lambda s: (haversine_m(lat, lon, s.lat, s.lon), s.id))
+    return best.id, haversine_m(lat, lon, best.lat, best.lon)
+
+
+class SiteWatch:
+    """Front tracking, site forecasts, alerts and race-course monitors for one network."""
+
+    def __init__(self, config: NetworkConfig) -> None:
+        self.config = config
+        st = config.stations
+        self.lat0 = sum(s.lat for s in st) / len(st)
+        self.lon0 = sum(s.lon for s in st) / len(st)
+        pos = {}
+        for s in st:
+            x, y = local_xy_m(s.lat, s.lon, self.lat0, self.lon0)
+            pos[s.id] = (x, y, s.onshore_from_deg)
+        self.tracker = FrontTracker(pos)
+        tz = config.tz
+        self.sites: list[_Site] = []
+        self.monitors: dict[str, CourseMonitor] = {}  # site id -> monitor
+        self._watched: dict[str, list[CourseMonitor]] = {}  # station -> monitors it feeds
+        self._ema: dict[str, list[float]] = {}  # site station -> running (u, v)
+        for sc in config.sites:
+            near, dist = nearest_station(config, sc.lat, sc.lon)
+            sid = sc.station or near
+            confirm = sc.station or (near if dist <= SITE_STATION_MAX_M else None)
+            x, y = local_xy_m(sc.lat, sc.lon, self.lat0, self.lon0)
+            self.sites.append(_Site(sc, x, y, confirm, SiteAlerts(sc, tz, confirm)))
+            self._ema.setdefault(sid, [0.0, 0.0, 0.0])
+            self._watched.setdefault(sid, [])
+            if sc.course_axis_deg is not None:
+                stc = config.station(sid)
+                assert stc is not None
+                mon = CourseMonitor(sc.id, sc.course_axis_deg, stc.onshore_from_deg, stc.onshore_halfwidth_deg)
+                self.monitors[sc.id] = mon
+                self._watched[sid].append(mon)
+        self._site_stations = {s.station for s in self.sites if s.station is not None}
+        self._site_wind = {s.cfg.id: s.station or nearest_station(config, s.cfg.lat, s.cfg.lon)[0] for s in self.sites}
+        self.last_seen: dict[str, float] = {}
+        self.passages: dict[str, float] = {}  # site station -> onset of its latest breeze-front passage
+        self.minute = -1
+
+    # ---- the hot path -------------------------------------------------------------------------
+    def observe(self, obs: Observation, event: PassageEvent | None) -> list[Output]:
+        t = obs.time
+        self.last_seen[obs.station] = t
+        mons = self._watched.get(obs.station)
+        if mons is not None:
+            self._watch_obs(obs, mons)
+        out: list[Output] = []
+        if event is not None and event.kind == "breeze_front":
+            out.extend(self._on_passage(event, t))
+        m = int(t // 60.0)
+        if m > self.minute:
+            self.minute = m
+            out.extend(self._tick(t))
+        return out
+
+    def _watch_obs(self, obs: Observation, mons: list[CourseMonitor]) -> None:
+        d, s = obs.wind_dir_deg, obs.wind_speed_ms
+        if d == d and s == s:
+            u, v = wind_components(s, d)
+            e = self._ema[obs.station]
+            a = DIR_EMA_ALPHA if e[2] else 1.0
+            e[0] += a * (u - e[0])
+            e[1] += a * (v - e[1])
+            e[2] = 1.0
+        for mon in mons:
+            mon.add(obs.time, d, s)
+
+    # ---- passages -----------------------------------------------------------------------------
+    def _on_passage(self, ev: PassageEvent, now: float) -> list[Output]:
+        if ev.station in self._site_stations:
+            self.passages[ev.station] = ev.onset
+        fr = self.tracker.add(ev)
+        if fr is None or fr.fit is None:
+            return []
+        out: list[Output] = []
+        for site in self.sites:
+            out.extend(self._evaluate(site, now, fr, emit_forecast=True))
+        return out
+
+    def _arrived_at(self, site: _Site, fr: Front, now: float) -> float | None:
+        if site.station is None:
+            # No station of its own: estimated from the track once a station at least as far along
+            # has reported, or once the ETA has passed with the front still moving.
+            f = fr.fit
+            if f is None:
+                return None
+            p = f.progress(site.x, site.y)
+            eta = f.arrival(site.x, site.y)[0]
+            if any(f.progress(a.x, a.y) >= p for a in fr.arrivals.values()):
+                return eta
+            if fr.stalled_at is None and now >= eta and eta >= fr.first_onset:
+                return eta
+            return None
+        a = fr.arrivals.get(site.station)
+        if a is not None:
+            return a.onset
+        seen = self.passages.get(site.station)
+        if seen is not None and fr.first_onset - ARRIVAL_MATCH_S <= seen <= fr.last_change + FRONT_TTL_S:
+            return seen
+        return None
+
+    def _forecast(self, site: _Site, fr: Front, now: float) -> SiteForecast:
+        up = site.station is not None and now - self.last_seen.get(site.station, -math.inf) <= STATION_UP_S
+        return forecast_for_site(site.cfg.id, site.x, site.y, fr, now, self.tracker.stall_progress(fr),
+                                 self._arrived_at(site, fr, now), station_up=up)
+
+    def _evaluate(self, site: _Site, now: float, changed: Front | None, emit_forecast: bool) -> list[Output]:
+        """Re-forecast one site. `changed` is a front that just changed (it may take the site over)."""
+        cur = self.tracker.get(site.front) if site.front is not None else None
+        fr = cur
+        fc = self._forecast(site, cur, now) if cur is not None else None
+        if changed is not None and changed is not cur:
+            fc_new = self._forecast(site, changed, now)
+            if cur is None or fc is None:
+                take = fc_new.status != NOT_EXPECTED
+            else:  # keep following the current front unless the new one is better supported
+                take = fc_new.status == EXPECTED and (
+                    fc.status != EXPECTED or len(changed.arrivals) > len(cur.arrivals))
+            if take:
+                fr, fc = changed, fc_new
+                site.front = changed.key
+        if fr is None or fc is None:
+            return []
+        out: list[Output] = []
+        last = site.last_fc
+        if (emit_forecast and not fc.same_as(last)) or last is None or last.status != fc.status \
+                or last.front != fc.front:
+            out.append(fc)
+            site.last_fc = fc
+        msg = site.alerts.step(now, fc, self._current_dir(self._site_wind[site.cfg.id]),
+                               None if site.station is None else self.last_seen.get(site.station))
+        if msg is not None:
+            out.append(msg)
+        return out
+
+    def _current_dir(self, station: str) -> float | None:
+        e = self._ema.get(station)
+        if e is None or not e[2]:
+            return None
+        d = wind_direction(e[0], e[1])
+        return None if d != d else d
+
+    # ---- once a data minute -------------------------------------------------------------------
+    def _tick(self, now: float) -> list[Output]:
+        out: list[Output] = []
+        tr = self.tracker
+        if tr.fronts:
+            tr.check_stalls(now, self.last_seen)
+            gone = {fr.key for fr in tr.expire(now)}
+            for site in self.sites:
+                if site.front is None:
+                    if site.alerts.state in ACTIVE:
+                        msg = site.alerts.step(now, None)
+                        if msg is not None:
+                            out.append(msg)
+                    continue
+                if site.front in gone:
+                    site.front = None
+                    last = site.alerts.fc
+                    ended = None if last is None or last.status != EXPECTED else replace(
+                        last, issued_at=now, status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
+                        reason="expired")
+                    if ended is not None:
+                        out.append(ended)
+                        site.last_fc = ended
+                    msg = site.alerts.step(now, ended)
+                    if msg is not None:
+                        out.append(msg)
+                    continue
+                out.extend(self._evaluate(site, now, None, emit_forecast=False))
+        else:
+            for site in self.sites:
+                if site.alerts.state in ACTIVE:
+                    msg = site.alerts.step(now, None)
+                    if msg is not None:
+                        out.append(msg)
+        for mon in self.monitors.values():
+            rep = mon.tick(now)
+            if rep is not None:
+                out.append(rep)
+        return out
+
+    # ---- state --------------------------------------------------------------------------------
+    def snapshot(self) -> dict[str, Any]:
+        return {
+            "minute": self.minute,
+            "last_seen": dict(self.last_seen),
+            "passages": dict(self.passages),
+            "ema": {k: list(v) for k, v in self._ema.items()},
+            "fronts": self.tracker.snapshot(),
+            "sites": {s.cfg.id: {"front": s.front, "last_fc": None if s.last_fc is None else s.last_fc.to_state(),
+                                 "alerts": s.alerts.snapshot()} for s in self.sites},
+            "monitors": {k: m.snapshot() for k, m in self.monitors.items()},
+        }
+
+    def restore(self, snap: dict[str, Any]) -> None:
+        self.minute = int(snap["minute"])
+        self.last_seen = {k: float(v) for k, v in snap["last_seen"].items()}
+        self.passages = {k: float(v) for k, v in snap["passages"].items()}
+        for k, v in snap["ema"].items():
+            if k in self._ema:
+                self._ema[k] = [float(x) for x in v]
+        self.tracker.restore(snap["fronts"])
+        for s in self.sites:
+            d = snap["sites"].get(s.cfg.id)
+            if d is None:
+                continue
+            s.front = d["front"]
+            s.last_fc = None if d["last_fc"] is None else SiteForecast.from_state(d["last_fc"])
+            s.alerts.restore(d["alerts"])
+        for k, m in self.monitors.items():
+            if k in snap["monitors"]:
+                m.restore(snap["monitors"][k])

@@ -19,7 +19,7 @@ from .timeutil import iso_z, parse_time
 NAN = float("nan")
 
 # Canonical quantity -> {suffix: converter to the canonical unit}
-_SPEED = {"ms": lambda x: x, "kt": lambda x: x * 0.514444, "mph": lambda x: x * 0.44704, "kmh": lambda x: x / 3.6}
+_SPEED = {"ms": lambda x: x, "kt": lambda x: x * 1852.0 / 3600.0, "mph": lambda x: x * 0.44704, "kmh": lambda x: x / 3.6}
 _TEMP = {"c": lambda x: x, "f": lambda x: (x - 32.0) * 5.0 / 9.0, "k": lambda x: x - 273.15}
 _PRES = {"hpa": lambda x: x, "inhg": lambda x: x * 33.8638866667, "pa": lambda x: x / 100.0, "kpa": lambda x: x * 10.0}
 
@@ -83,7 +83,7 @@ def _number(value: Any, field: str) -> float:
     if isinstance(value, bool):
         raise DecodeError(f"expected a number, got {value!r}", field=field, code="wrong_type")
     if isinstance(value, int | float):
-        x = float(value)
+        x = float(value) if isinstance(value, float) or abs(value) <= 1.7976931348623157e308 else math.inf
     elif isinstance(value, str):
         s = value.strip()
         if s == "":
@@ -132,7 +132,7 @@ def decode_record(
         canon, conv = su
         x = _number(raw, key)
         if x == x:
-            x = conv(x)
+            x = conv(x) if -1e300 < x < 1e300 else _number(conv(x), key)  # 1e308 inHg overflows to inf
         if canon == "rh_pct":
             rh = x
         else:
@@ -182,7 +182,7 @@ def decode_payload(
                                 station=topic_station, code="too_large")]
     try:
         doc = json.loads(payload)
-    except (ValueError, UnicodeDecodeError) as exc:
+    except (ValueError, UnicodeDecodeError, RecursionError) as exc:
         return [], [DecodeError(f"malformed JSON: {exc}", station=topic_station, code="malformed_json")]
     items: Iterable[Any] = doc if isinstance(doc, list) else [doc]
     good: list[Observation] = []

@@ -47,7 +47,7 @@ def network(n_stations: int = 9, n_sites: int = 2) -> NetworkConfig:
 def passage_time(cfg: NetworkConfig, sid: str) -> float:
     st = cfg.station(sid)
     assert st is not None
-    dist_m = (COAST_LON - st.lon) * 111_200 * math.cos(math.radians(st.lat))
+    dist_m = (COAST_LON - st.lon) * 111_200 * math.cos(math.radians(-27.4))  # the front runs north-south
     return FRONT_START + dist_m / FRONT_SPEED
 
 
@@ -75,12 +75,12 @@ def free_port() -> int:
 class Server:
     """uvicorn serving an app on 127.0.0.1 in a daemon thread; call() runs a function on its loop."""
 
-    def __init__(self, app: Any) -> None:
+    def __init__(self, app: Any, port: int | None = None) -> None:
         import uvicorn
 
-        self.port = free_port()
+        self.port = port or free_port()
         self.server = uvicorn.Server(uvicorn.Config(app, host="127.0.0.1", port=self.port, log_level="warning",
-                                                    lifespan="off"))
+                                                    lifespan="off", timeout_graceful_shutdown=1))
         self.loop: asyncio.AbstractEventLoop | None = None
         self.thread = threading.Thread(target=self._run, daemon=True)
 
@@ -88,6 +88,14 @@ class Server:
         self.loop = asyncio.new_event_loop()
         asyncio.set_event_loop(self.loop)
         self.loop.run_until_complete(self.server.serve())
+        # uvicorn leaves a cancelled stream's socket open (a real process would exit): drop it, as a
+        # dying service would, so clients see the connection go.
+        for conn in list(self.server.server_state.connections):
+            transport = getattr(conn, "transport", None)
+            if transport is not None:
+                transport.abort()
+        self.loop.run_until_complete(asyncio.sleep(0.05))
+        self.loop.close()
 
     def __enter__(self) -> Server:
         self.thread.start()

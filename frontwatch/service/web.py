@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from prometheus_client import CollectorRegistry, make_asgi_app
+from prometheus_client.exposition import choose_encoder
 from starlette.applications import Starlette
 from starlette.requests import Request
 from starlette.responses import FileResponse, JSONResponse, Response, StreamingResponse
@@ -115,6 +116,10 @@ def make_app(hub: DashboardHub, registry: CollectorRegistry, token: str | None =
         return StreamingResponse(gen(), media_type="text/event-stream",
                                  headers={"Cache-Control": "no-cache", "X-Accel-Buffering": "no"})
 
+    async def metrics_plain(request: Request) -> Response:
+        encoder, content_type = choose_encoder(request.headers.get("accept", ""))
+        return Response(encoder(registry), media_type=content_type)
+
     metrics_app: Any = make_asgi_app(registry=registry)
 
     async def metrics(scope: Scope, receive: Receive, send: Send) -> None:
@@ -141,5 +146,6 @@ def make_app(hub: DashboardHub, registry: CollectorRegistry, token: str | None =
 
     routes = [Route("/", guarded(index)), Route("/api/state", guarded(state)), Route("/api/stream", guarded(stream)),
               Route("/api/caution", guarded(caution)), Route("/api/series/{station}", guarded(series)),
+              Route("/metrics", guarded(metrics_plain)),
               Mount("/static", app=static), Mount("/metrics", app=metrics)]
     return Starlette(routes=routes)

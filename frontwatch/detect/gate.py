@@ -12,7 +12,7 @@ from __future__ import annotations
 FAST = 0.5  # ~2-minute memory
 SLOW = 0.06  # ~16-minute memory
 WANDER = 0.02  # ~50-minute memory of the deviation size
-K = 3.0  # open at this many times the usual wander
+K2 = 16.0  # open when the squared deviations, in units of their usual wander, sum past 4^2
 # Floors below which a change is never interesting (T and Td in degC, wind vector in m/s).
 FLOOR_T = 0.25
 FLOOR_W = 1.0
@@ -45,25 +45,29 @@ class Gate:
             self.primed += 1
             return False
         drift, wander = self.drift, self.wander
-        opened = False
+        # A front moves several channels at once, noise mostly one: combine them before deciding.
+        z2 = 0.0
+        devs = [0.0, 0.0, 0.0]
         for i in (0, 1):
             d = f[i] - s[i]
             if d == d:
                 dev = abs(d - drift[i])
                 drift[i] += SLOW * (d - drift[i])
-                if dev > FLOOR_T and dev > K * wander[i]:
-                    opened = True
-                else:
-                    wander[i] += WANDER * (dev - wander[i])
+                devs[i] = dev
+                if dev > FLOOR_T:
+                    z2 += (dev / wander[i]) ** 2
         du = f[2] - s[2]
         dv = f[3] - s[3]
         if du == du and dv == dv:
             dw = (du * du + dv * dv) ** 0.5
-            if dw > FLOOR_W and dw > K * wander[2]:
-                opened = True
-            else:
-                wander[2] += WANDER * (dw - wander[2])
-        return opened
+            devs[2] = dw
+            if dw > FLOOR_W:
+                z2 += (dw / wander[2]) ** 2
+        if z2 > K2:
+            return True
+        for i in (0, 1, 2):
+            wander[i] += WANDER * (max(devs[i], 0.02) - wander[i])
+        return False
 
     def state(self) -> list[list[float] | int]:
         return [list(self.f), list(self.s), list(self.drift), list(self.wander), self.primed]

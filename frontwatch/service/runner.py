@@ -1,0 +1,405 @@
+"""The live service: one TaskGroup running the broker connection, the core, snapshots and the web app.
+
+Flow: the receiver puts MQTT messages on a bounded inbox (full -> the oldest is dropped, counted
+and acknowledged); the consumer takes what is waiting as one batch, decodes it, feeds the core in
+arrival order, writes journal + outputs to the store in one transaction, then acknowledges the
+messages (manual QoS 1 acks, so nothing acknowledged is ever lost) and wakes the publisher, which
+sends stored outputs (events QoS 1; alerts and forecasts QoS 1 retained) and marks them sent.
+The core is pure and synchronous; a batch is processed without awaiting, so a snapshot taken
+between batches is consistent with the journal position it records.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import contextlib
+import logging
+import socket
+import time
+from collections import deque
+from collections.abc import Callable, Iterator
+from dataclasses import dataclass
+from typing import Any
+
+import aiomqtt
+import uvicorn
+
+from ..config import NetworkConfig
+from ..engine import Engine
+from ..events import PassageEvent
+from ..obs import Observation, decode_payload
+from .hub import DashboardHub
+from .metrics import ServiceMetrics
+from .mqtt import Backoff, ack, make_client, station_of
+from .settings import ServiceSettings
+from .store import Store, output_key
+from .web import make_app
+
+log = logging.getLogger("frontwatch.service")
+
+MAX_BATCH = 2000  # messages per consumer batch (one transaction)
+
+
+@dataclass(slots=True)
+class _Item:
+    gen: int  # connection generation: acks are only valid on the connection that delivered it
+    mid: int
+    qos: int
+    topic: str
+    payload: bytes
+    received: float  # wall clock
+
+
+class _QuietServer(uvicorn.Server):
+    """uvicorn without its own signal handling: the service owns Ctrl-C / SIGTERM."""
+
+    @contextlib.contextmanager
+    def capture_signals(self) -> Iterator[None]:
+        yield
+
+
+class Service:
+    """The live service for one network. `run(stop)` returns once `stop` is set and all is saved."""
+
+    def __init__(self, config: NetworkConfig, settings: ServiceSettings, *,
+                 metrics: ServiceMetrics | None = None, hub: DashboardHub | None = None,
+                 on_output: Callable[[dict[str, Any]], None] | None = None) -> None:
+        self.config = config
+        self.settings = settings
+        self.metrics = metrics or ServiceMetrics()
+        self.hub = hub or DashboardHub(config)
+        self.on_output = on_output
+        self.obs_prefix = settings.topic("obs") + "/"
+        self.gateways = set(config.network.gateways)
+        self.store = Store(settings.db_path if settings.db_path is not None else ":memory:")
+        self.engine = Engine(config)
+        self.inbox: deque[_Item] = deque()
+        self._ready = asyncio.Event()
+        self._publish_wakeup = asyncio.Event()
+        self._stopping = asyncio.Event()
+        self._consumer_done = asyncio.Event()
+        self.connected = asyncio.Event()
+        self.web_port: int | None = None
+        self.web_ready = asyncio.Event()
+        self._client: aiomqtt.Client | None = None
+        self._gen = 0
+        self._unknown_seen: set[str] = set()
+        self._unknown_total = 0
+        self._qc_seen: dict[str, int] = {}
+        self._events_seen: dict[str, int] = {}
+        self._last_snapshot = 0.0
+        self.taken = 0  # messages taken by the core since start (for tests and the demo)
+
+    # --- start-up: restore the core and catch up on the journal ------------------------------
+    def recover(self) -> int:
+        """Restore the newest snapshot and re-feed the journal after it; returns records re-fed."""
+        snap = self.store.latest_snapshot()
+        start = 0
+        if snap is not None:
+            start, state = snap
+            self.engine = Engine.restore(self.config, state)
+            log.info("restored the core from its snapshot (journal position %d)", start)
+        n = 0
+        outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
+        for _seq, topic, payload in self.store.journal_after(start):
+            obs, _errors = self._decode(topic, payload)
+            for o in obs:
+                n += 1
+                for out in self.engine.feed(o):
+                    outputs.append(self._route(out.to_dict(), 0.0))
+        if outputs:
+            new = self.store.commit_batch((), outputs)
+            log.info("re-fed %d journalled records: %d outputs, %d not stored before", n, len(outputs), len(new))
+        self._sync_engine_counters(count=False)
+        for out in self.store.outputs()[-200:]:
+            self.hub.emit(out)
+        return n
+
+    # --- the whole service ------------------------------------------------------------------
+    async def run(self, stop: asyncio.Event | None = None) -> None:
+        stop = stop or asyncio.Event()
+        self.recover()
+        self._last_snapshot = time.monotonic()
+        try:
+            async with asyncio.TaskGroup() as tg:
+                tg.create_task(self._watch_stop(stop), name="stop")
+                tg.create_task(self._broker_loop(), name="broker")
+                tg.create_task(self._consumer(), name="core")
+                tg.create_task(self._snapshotter(), name="snapshots")
+                if self.settings.http_port is not None:
+                    tg.create_task(self._web(), name="web")
+        finally:
+            self.snapshot()
+            self.store.close()
+            log.info("stopped; state saved")
+
+    async def _watch_stop(self, stop: asyncio.Event) -> None:
+        await stop.wait()
+        self._stopping.set()
+        self._ready.set()
+        self._publish_wakeup.set()
+
+    def snapshot(self) -> None:
+        self.store.save_snapshot(self.engine.snapshot(), dict(self.engine.stats.last_time))
+        self.metrics.snapshots.inc()
+
+    # --- broker connection ------------------------------------------------------------------
+    async def _broker_loop(self) -> None:
+        s = self.settings
+        status = s.topic("status")
+        backoff = Backoff(s.backoff_min_s, s.backoff_max_s)
+        first = True
+        was_up = False
+        failures = 0
+        while not self._stopping.is_set():
+            client = make_client(s, client_id=s.client_id, persistent=True, manual_ack=True,
+                                 will=aiomqtt.Will(status, b"offline", qos=1, retain=True))
+            try:
+                async with client:
+                    self._gen += 1
+                    self._client = client
+                    self.metrics.connected.set(1)
+                    if not first:
+                        self.metrics.reconnects.inc()
+                    log.info("connected to %s as %r%s", s.broker.url, s.client_id,
+                             "" if first else f" (after {failures} failed attempt(s))")
+                    first, was_up, failures = False, True, 0
+                    backoff.reset()
+                    await client.publish(status, b"online", qos=1, retain=True)
+                    await client.subscribe(self.obs_prefix + "+", qos=1)
+                    self.connected.set()
+                    await self._connected_session(client)
+                    if self._stopping.is_set():
+                        await self._flush(client)
+                        await client.publish(status, b"offline", qos=1, retain=True, timeout=3)
+            except aiomqtt.MqttError as exc:
+                failures += 1
+                if was_up or failures == 1:
+                    log.warning("broker %s unavailable (%s); retrying with backoff", s.broker.url, exc)
+                was_up = False
+            finally:
+                self._client = None
+                self.connected.clear()
+                self.metrics.connected.set(0)
+            if self._stopping.is_set():
+                return
+            with contextlib.suppress(TimeoutError):
+                await asyncio.wait_for(self._stopping.wait(), backoff.next())
+
+    async def _connected_session(self, client: aiomqtt.Client) -> None:
+        """Receive and publish until the connection drops (raises MqttError) or we stop."""
+        tasks = [asyncio.create_task(self._receive(client)), asyncio.create_task(self._publisher(client)),
+                 asyncio.create_task(self._stopping.wait())]
+        try:
+            done, _ = await asyncio.wait(tasks, return_when=asyncio.FIRST_COMPLETED)
+        finally:
+            for t in tasks:
+                t.cancel()
+            await asyncio.gather(*tasks, return_exceptions=True)
+        for t in done:
+            if not t.cancelled() and t.exception() is not None:
+                raise t.exception()  # type: ignore[misc]
+        if self._stopping.is_set():
+            # Let the core finish its batch so its outputs go out before we say offline.
+            with contextlib.suppress(TimeoutError):
+                await asyncio.wait_for(self._consumer_done.wait(), 5)
+
+    async def _receive(self, client: aiomqtt.Client) -> None:
+        gen = self._gen
+        cap = self.settings.queue_size
+        inbox = self.inbox
+        m = self.metrics
+        async for msg in client.messages:
+            payload = msg.payload
+            if not isinstance(payload, bytes | bytearray):
+                payload = str(payload).encode()
+            item = _Item(gen, msg.mid, msg.qos, msg.topic.value, bytes(payload), time.time())
+            if len(inbox) >= cap:
+                old = inbox.popleft()
+                m.dropped.inc()
+                self._ack(old)
+            inbox.append(item)
+            self._ready.set()
+
+    def _ack(self, item: _Item) -> None:
+        c = self._client
+        if c is not None and item.gen == self._gen:
+            with contextlib.suppress(Exception):  # a dying connection: the broker will redeliver
+                ack(c, item.mid, item.qos)
+
+    # --- the core -----------------------------------------------------------------------------
+    async def _consumer(self) -> None:
+        try:
+            while True:
+                if not self.inbox:
+                    if self._stopping.is_set():
+                        return
+                    self.metrics.queue_depth.set(0)
+                    self._ready.clear()
+                    await self._ready.wait()
+                    continue
+                if self._stopping.is_set():
+                    return  # unacknowledged messages stay with the broker for next time
+                batch = [self.inbox.popleft() for _ in range(min(len(self.inbox), MAX_BATCH))]
+                self.metrics.queue_depth.set(len(self.inbox))
+                self.process_batch(batch)
+                if self._snapshot_due():
+                    self.snapshot()
+                await asyncio.sleep(0)
+        finally:
+            self._consumer_done.set()
+
+    def _decode(self, topic: str, payload: bytes) -> tuple[list[Observation], list[Any]]:
+        st = station_of(topic, self.obs_prefix)
+        if st is None:
+            return [], []
+        gateway = st in self.gateways or topic in self.gateways
+        return decode_payload(payload, topic_station=st, may_speak_for=(lambda _s: True) if gateway else None,
+                              naive_tz=self.config.naive_tz)
+
+    def process_batch(self, batch: list[_Item]) -> None:
+        """Decode, feed, store, acknowledge; synchronous on purpose (see the module docstring)."""
+        m = self.metrics
+        eng = self.engine
+        known = eng.detectors
+        hub = self.hub
+        journal: list[tuple[str, bytes]] = []
+        outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
+        m.messages.inc(len(batch))
+        self.taken += len(batch)
+        n_rec = 0
+        t_core = 0.0
+        latest: dict[str, tuple[Observation, float]] = {}
+        perf = time.perf_counter
+        for item in batch:
+            obs, errors = self._decode(item.topic, item.payload)
+            for err in errors:
+                m.refused.labels(err.code).inc()
+            if not obs:
+                continue
+            if any(o.station in known for o in obs):
+                journal.append((item.topic, item.payload))
+            n_rec += len(obs)
+            t0 = perf()
+            for o in obs:
+                for out in eng.feed(o):
+                    outputs.append(self._route(out.to_dict(), item.received))
+            t_core += perf() - t0
+            for o in obs:
+                latest[o.station] = (o, item.received)
+        # The dashboard gets each station's newest record of the batch: every record at live rates
+        # (a batch is one message), a sample when catching up on a backlog.
+        for sid, (o, received) in latest.items():
+            if sid in known:
+                m.station_seen[sid] = (received, o.time)
+                hub.observe(o, ())
+        if n_rec:
+            m.records.inc(n_rec)
+            m.processing.observe(t_core / n_rec)
+        self._sync_engine_counters()
+        new = set(self.store.commit_batch(journal, outputs)) if (journal or outputs) else set()
+        for item in batch:
+            self._ack(item)
+        for key, _topic, out, _retain, _created in outputs:
+            if key in new:
+                hub.emit(out)
+                if self.on_output is not None:
+                    self.on_output(out)
+        if new:
+            self._publish_wakeup.set()
+
+    def _route(self, out: dict[str, Any], received: float) -> tuple[str, str, dict[str, Any], bool, float]:
+        kind = out.get("type")
+        if kind is None:
+            return (out["id"], self.settings.topic("events", out["station"]), out, False, received)
+        # Alerts and forecasts are retained: a newcomer sees each site's current state.
+        return (output_key(out), self.settings.topic(f"{kind}s", str(out.get("site"))), out, True, received)
+
+    def _sync_engine_counters(self, count: bool = True) -> None:
+        """Carry the core's QC and event counters into the metrics (the core counts, we export)."""
+        st = self.engine.stats
+        for name, src, metric in (("qc", st.qc, self.metrics.qc_flags), ("ev", st.events, self.metrics.events)):
+            seen = self._qc_seen if name == "qc" else self._events_seen
+            for k, v in src.items():
+                d = v - seen.get(k, 0)
+                if d:
+                    seen[k] = v
+                    if count and d > 0:
+                        metric.labels(k).inc(d)
+        unknown = st.unknown_stations
+        if len(unknown) != len(self._unknown_seen):
+            for sid in unknown:
+                if sid not in self._unknown_seen:
+                    self._unknown_seen.add(sid)
+                    if len(self._unknown_seen) > 20:
+                        continue  # reported once each, up to a point; the metric keeps counting
+                    log.warning("records from station %r, which is not in %s, are counted and ignored",
+                                sid, self.config.source)
+        total = sum(unknown.values()) if unknown else 0
+        if total > self._unknown_total:
+            if count:
+                self.metrics.unknown.inc(total - self._unknown_total)
+            self._unknown_total = total
+
+    def _snapshot_due(self) -> bool:
+        now = time.monotonic()
+        if now - self._last_snapshot >= self.settings.snapshot_every_s:
+            self._last_snapshot = now
+            return True
+        return False
+
+    async def _snapshotter(self) -> None:
+        """Snapshots on the interval even when the feed is quiet (the consumer does it when busy)."""
+        while not self._stopping.is_set():
+            with contextlib.suppress(TimeoutError):
+                await asyncio.wait_for(self._stopping.wait(), self.settings.snapshot_every_s)
+            if not self._stopping.is_set() and self._snapshot_due():
+                self.snapshot()
+
+    # --- outputs ------------------------------------------------------------------------------
+    async def _publisher(self, client: aiomqtt.Client) -> None:
+        while True:
+            await self._flush(client)
+            if self._stopping.is_set():
+                return
+            self._publish_wakeup.clear()
+            await self._publish_wakeup.wait()
+
+    async def _flush(self, client: aiomqtt.Client) -> None:
+        """Send every stored output the broker has not acknowledged yet, oldest first."""
+        while True:
+            pending = self.store.unpublished()
+            if not pending:
+                return
+            done: list[int] = []
+            try:
+                for p in pending:
+                    await client.publish(p.topic, p.payload.encode(), qos=1, retain=p.retain)
+                    done.append(p.n)
+                    self.metrics.outputs.labels(p.type).inc()
+                    if p.created > 0:
+                        self.metrics.latency.observe(max(0.0, time.time() - p.created))
+            finally:
+                self.store.mark_published(done)
+
+    # --- web ---------------------------------------------------------------------------------
+    async def _web(self) -> None:
+        s = self.settings
+        app = make_app(self.hub, self.metrics.registry, s.http_token)
+        sock = socket.socket(socket.AF_INET, socket.SOCK_STREAM)
+        sock.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
+        sock.bind((s.http_host, s.http_port or 0))
+        self.web_port = sock.getsockname()[1]
+        server = _QuietServer(uvicorn.Config(app, log_level="warning", lifespan="off", access_log=False))
+        task = asyncio.create_task(server.serve(sockets=[sock]))
+        self.web_ready.set()
+        try:
+            await self._stopping.wait()
+        finally:
+            server.should_exit = True
+            await task
+            sock.close()
+
+
+def is_event(out: object) -> bool:
+    return isinstance(out, PassageEvent) or (isinstance(out, dict) and "type" not in out)

@@ -1,0 +1,172 @@
+"""The service's SQLite store: outputs (an outbox), core snapshots, and a journal of accepted input.
+
+How a restart stays exact:
+- Each batch of MQTT messages is written to `journal` in the same transaction as the outputs it
+  caused; only after that commit are the messages acknowledged to the broker. A crash before the
+  commit leaves them unacknowledged, so the broker delivers them again.
+- A snapshot of the core records the journal position it covers; on start the service restores
+  the newest snapshot and feeds the journal after it again, which reproduces the same outputs.
+- Outputs are keyed (events by their stable id); a key already stored is not stored or published
+  again. `published` is set once the broker acknowledged it, so an output stored but not yet
+  sent goes out after a restart or reconnect (at least once; the stable id lets readers dedupe).
+
+WAL mode with synchronous=NORMAL: a commit survives the process being killed (it is in the OS),
+not necessarily a power cut. That is the trade for keeping up with the feed.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import sqlite3
+import time
+from collections.abc import Iterable, Iterator
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+from ..errors import StateError
+
+_SCHEMA = """
+CREATE TABLE IF NOT EXISTS journal (
+    seq INTEGER PRIMARY KEY,
+    topic TEXT NOT NULL,
+    payload BLOB NOT NULL
+);
+CREATE TABLE IF NOT EXISTS outputs (
+    n INTEGER PRIMARY KEY AUTOINCREMENT,
+    key TEXT NOT NULL UNIQUE,
+    type TEXT NOT NULL,
+    topic TEXT NOT NULL,
+    payload TEXT NOT NULL,
+    retain INTEGER NOT NULL,
+    published INTEGER NOT NULL DEFAULT 0,
+    created REAL NOT NULL
+);
+CREATE INDEX IF NOT EXISTS outputs_unpublished ON outputs (published) WHERE published = 0;
+CREATE TABLE IF NOT EXISTS snapshots (
+    id INTEGER PRIMARY KEY AUTOINCREMENT,
+    taken REAL NOT NULL,
+    journal_seq INTEGER NOT NULL,
+    last_time TEXT NOT NULL,
+    state TEXT NOT NULL
+);
+"""
+
+
+def output_key(out: dict[str, Any]) -> str:
+    """Stable key of an output: an event's id; for forecasts and alerts, type, site and content."""
+    kind = out.get("type")
+    if kind is None:
+        return str(out["id"])
+    body = json.dumps(out, sort_keys=True, separators=(",", ":"))
+    return f"{kind}:{out.get('site')}:{hashlib.sha1(body.encode()).hexdigest()[:20]}"
+
+
+@dataclass(frozen=True)
+class Pending:
+    """An output stored but not yet acknowledged by the broker."""
+
+    n: int
+    key: str
+    type: str
+    topic: str
+    payload: str
+    retain: bool
+    created: float
+
+
+class Store:
+    """One SQLite file (or ':memory:'). Used from the event loop's thread only."""
+
+    def __init__(self, path: str | Path) -> None:
+        self.path = str(path)
+        try:
+            self.db = sqlite3.connect(self.path, isolation_level=None, check_same_thread=False)
+            self.db.execute("PRAGMA journal_mode=WAL")
+            self.db.execute("PRAGMA synchronous=NORMAL")
+            self.db.executescript(_SCHEMA)
+        except sqlite3.DatabaseError as exc:
+            raise StateError(f"{self.path}: cannot open the state store: {exc}") from None
+        row = self.db.execute("SELECT COALESCE(MAX(seq), 0) FROM journal").fetchone()
+        snap = self.db.execute("SELECT COALESCE(MAX(journal_seq), 0) FROM snapshots").fetchone()
+        self.seq = max(int(row[0]), int(snap[0]))
+
+    def close(self) -> None:
+        self.db.close()
+
+    # --- one batch: journal + outputs, one transaction --------------------------------------
+    def commit_batch(self, messages: Iterable[tuple[str, bytes]],
+                     outputs: Iterable[tuple[str, str, dict[str, Any], bool, float]]) -> list[str]:
+        """Journal the messages and store the outputs; returns the keys that were new.
+
+        `outputs` items are (key, topic, output dict, retain, created wall time).
+        """
+        new: list[str] = []
+        db = self.db
+        db.execute("BEGIN")
+        try:
+            rows = []
+            for topic, payload in messages:
+                self.seq += 1
+                rows.append((self.seq, topic, payload))
+            if rows:
+                db.executemany("INSERT INTO journal (seq, topic, payload) VALUES (?, ?, ?)", rows)
+            for key, topic, out, retain, created in outputs:
+                cur = db.execute(
+                    "INSERT OR IGNORE INTO outputs (key, type, topic, payload, retain, created) VALUES (?,?,?,?,?,?)",
+                    (key, out.get("type", "event"), topic, json.dumps(out), int(retain), created))
+                if cur.rowcount:
+                    new.append(key)
+            db.execute("COMMIT")
+        except BaseException:
+            db.execute("ROLLBACK")
+            raise
+        return new
+
+    def journal_after(self, seq: int) -> Iterator[tuple[int, str, bytes]]:
+        for s, topic, payload in self.db.execute(
+                "SELECT seq, topic, payload FROM journal WHERE seq > ? ORDER BY seq", (seq,)):
+            yield int(s), str(topic), bytes(payload)
+
+    # --- outbox ---------------------------------------------------------------------------
+    def unpublished(self, limit: int = 500) -> list[Pending]:
+        rows = self.db.execute(
+            "SELECT n, key, type, topic, payload, retain, created FROM outputs WHERE published = 0 ORDER BY n LIMIT ?",
+            (limit,)).fetchall()
+        return [Pending(int(r[0]), r[1], r[2], r[3], r[4], bool(r[5]), float(r[6])) for r in rows]
+
+    def mark_published(self, ns: Iterable[int]) -> None:
+        self.db.executemany("UPDATE outputs SET published = 1 WHERE n = ?", [(n,) for n in ns])
+
+    def outputs(self, kind: str | None = None) -> list[dict[str, Any]]:
+        """Stored outputs in order (all, or one type: 'event', 'forecast', 'alert')."""
+        q = "SELECT payload FROM outputs" + (" WHERE type = ?" if kind else "") + " ORDER BY n"
+        return [json.loads(p) for (p,) in self.db.execute(q, (kind,) if kind else ())]
+
+    # --- snapshots ------------------------------------------------------------------------
+    def save_snapshot(self, state: dict[str, Any], last_time: dict[str, float], keep: int = 3) -> None:
+        """Store the core state as of the current journal position; trim older journal and snapshots."""
+        db = self.db
+        body = json.dumps(state, separators=(",", ":"), allow_nan=True)
+        db.execute("BEGIN")
+        try:
+            db.execute("INSERT INTO snapshots (taken, journal_seq, last_time, state) VALUES (?, ?, ?, ?)",
+                       (time.time(), self.seq, json.dumps(last_time), body))
+            db.execute("DELETE FROM journal WHERE seq <= ?", (self.seq,))
+            db.execute("DELETE FROM snapshots WHERE id NOT IN (SELECT id FROM snapshots ORDER BY id DESC LIMIT ?)",
+                       (keep,))
+            db.execute("COMMIT")
+        except BaseException:
+            db.execute("ROLLBACK")
+            raise
+
+    def latest_snapshot(self) -> tuple[int, dict[str, Any]] | None:
+        """(journal position it covers, core state) of the newest snapshot, or None."""
+        row = self.db.execute("SELECT journal_seq, state FROM snapshots ORDER BY id DESC LIMIT 1").fetchone()
+        if row is None:
+            return None
+        try:
+            return int(row[0]), json.loads(row[1])
+        except ValueError as exc:
+            raise StateError(f"{self.path}: newest snapshot is not valid JSON: {exc}") from None

@@ -1,7 +1,8 @@
 """Labels: what an analyst (or a scenario generator) says happened, as a JSONL file.
 
 One JSON object a line: `station`, `kind`, `time` (ISO 8601 with `Z` or an offset), optional
-`note` (text) and optional `status` (`unreviewed`, `confirmed` or `rejected`). A label without a
+`note` (text) and optional `status` (`unreviewed`, `confirmed` or `rejected`); other fields are kept as they are, unless
+one looks like a misspelt field name (`stauts`), which is an error. A label without a
 status is taken as confirmed (a generator's truth). Kinds are the passage kinds of DESIGN 3.3 or
 any other lower-case name (e.g. `cloud_shadow`) for a look-alike the analyst wants to mark: such
 labels are not passages, and an event on them is a false alarm (see frontwatch/score.py).
@@ -12,6 +13,7 @@ together so an analyst editing by hand can fix them in one go.
 
 from __future__ import annotations
 
+import difflib
 import json
 import re
 from collections.abc import Iterable
@@ -41,6 +43,7 @@ class Label:
     time: float
     note: str | None = None
     status: str | None = None
+    extra: tuple[tuple[str, Any], ...] = ()  # other fields (a generator's details), kept on write
 
     @property
     def effective_status(self) -> str:
@@ -57,6 +60,7 @@ class Label:
             d["note"] = self.note
         if self.status is not None:
             d["status"] = self.status
+        d.update(self.extra)
         return d
 
 
@@ -64,9 +68,12 @@ def label_from_dict(d: Any) -> Label:
     """Validate one decoded JSON value into a Label; ValueError says which field is wrong."""
     if not isinstance(d, dict):
         raise ValueError(f"expected a JSON object, got {type(d).__name__}")
-    unknown = sorted(set(d) - _FIELDS)
-    if unknown:
-        raise ValueError(f"unknown field(s) {', '.join(map(repr, unknown))} (allowed: {', '.join(sorted(_FIELDS))})")
+    for key in sorted(set(d) - _FIELDS):
+        # Extra fields are kept (a generator adds details); one that looks like a misspelt field
+        # would silently lose a review, so it is an error.
+        near = difflib.get_close_matches(key, _FIELDS, n=1, cutoff=0.75)
+        if near:
+            raise ValueError(f"unknown field {key!r}: did you mean {near[0]!r}?")
     for f in ("station", "kind", "time"):
         if f not in d:
             raise ValueError(f"field {f!r} is missing")
@@ -88,7 +95,8 @@ def label_from_dict(d: Any) -> Label:
     status = d.get("status")
     if status is not None and status not in STATUSES:
         raise ValueError(f"field 'status': {status!r} is not one of {', '.join(STATUSES)}")
-    return Label(st.strip(), kind, t, note, status)
+    extra = tuple((k, v) for k, v in d.items() if k not in _FIELDS)
+    return Label(st.strip(), kind, t, note, status, extra)
 
 
 def read_labels(path: str | Path) -> list[Label]:

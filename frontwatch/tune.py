@@ -91,8 +91,9 @@ class ObsStore:
     """
 
     def __init__(self, stations: list[str], cols: dict[str, np.ndarray], time: np.ndarray,
-                 station_idx: np.ndarray, day: np.ndarray) -> None:
+                 station_idx: np.ndarray, day: np.ndarray, qc_done: bool = False) -> None:
         self.stations = stations
+        self.qc_done = qc_done  # True: the records are QC's output (flagged values NaN, refused records gone)
         self.cols = cols
         self.time = time
         self.station_idx = station_idx
@@ -157,16 +158,17 @@ class ObsStore:
         np.save(d / "day.npy", self.day)
         for f, c in self.cols.items():
             np.save(d / f"{f}.npy", c)
-        (d / "stations.json").write_text(json.dumps(self.stations))
+        (d / "stations.json").write_text(json.dumps({"stations": self.stations, "qc_done": self.qc_done}))
 
     @classmethod
     def load(cls, folder: str | Path, mmap: bool = True) -> ObsStore:
         d = Path(folder)
         mode: Literal["r"] | None = "r" if mmap else None
-        stations = json.loads((d / "stations.json").read_text())
+        meta = json.loads((d / "stations.json").read_text())
         cols = {f: np.load(d / f"{f}.npy", mmap_mode=mode) for f in FIELDS}
-        return cls(stations, cols, np.load(d / "time.npy", mmap_mode=mode),
-                   np.load(d / "station.npy", mmap_mode=mode), np.load(d / "day.npy", mmap_mode=mode))
+        return cls(meta["stations"], cols, np.load(d / "time.npy", mmap_mode=mode),
+                   np.load(d / "station.npy", mmap_mode=mode), np.load(d / "day.npy", mmap_mode=mode),
+                   bool(meta["qc_done"]))
 
     def iter_observations(self, days: Iterable[int] | None = None, chunk: int = 65536) -> Iterator[Observation]:
         """Rebuild Observations for the chosen local days (all days when None), in time order."""
@@ -227,12 +229,50 @@ def store_from_columns(station: np.ndarray, columns: dict[str, np.ndarray], tz: 
     return ObsStore([str(x) for x in names], cols, time, sidx.astype(np.int32), local_day_numbers(time, tz))
 
 
+def apply_qc(store: ObsStore, config: NetworkConfig) -> ObsStore:
+    """The store as the Engine's QC passes it on: flagged values NaN, refused records and records of
+    stations not in the network dropped. QC does not depend on the detector settings, so a search
+    runs it once instead of once per trial (run_detector then feeds the detectors directly)."""
+    from .engine import Engine
+
+    if store.qc_done:
+        return store
+    eng = Engine(config.model_copy(update={"sites": []}))
+    keep = np.zeros(len(store), dtype=bool)
+    cols = {f: np.array(store.cols[f], dtype=np.float64) for f in FIELDS}
+    for i, o in enumerate(store.iter_observations()):
+        q = eng.qc.get(o.station)
+        if q is None:
+            continue
+        clean, _ = q.check(o)
+        if clean is None:
+            continue
+        keep[i] = True
+        for f in FIELDS:
+            cols[f][i] = getattr(clean, f)
+    out = ObsStore(store.stations, {f: c[keep] for f, c in cols.items()}, np.asarray(store.time)[keep],
+                   np.asarray(store.station_idx)[keep], np.asarray(store.day)[keep], qc_done=True)
+    return out
+
+
 def run_detector(store: ObsStore, config: NetworkConfig, days: Iterable[int] | None = None) -> list[PassageEvent]:
-    """The Engine over the store's records (only the detector matters here: sites are dropped)."""
+    """The Engine over the store's records (only the detector matters here: sites are dropped).
+
+    On a store that already went through apply_qc, the Engine's station detectors are fed the QC'd
+    records directly, which is what Engine.feed does after its QC step; the tests check that both
+    paths give replay's events.
+    """
     from .engine import Engine
 
     eng = Engine(config.model_copy(update={"sites": []}))
     out: list[PassageEvent] = []
+    if store.qc_done:
+        dets = eng.detectors
+        for o in store.iter_observations(days):
+            ev = dets[o.station].update(o)
+            if ev is not None:
+                out.append(ev)
+        return out
     feed = eng.feed
     for o in store.iter_observations(days):
         for x in feed(o):
@@ -639,8 +679,9 @@ def result_header(res: TuneResult) -> str:
 
 
 def cached_store(paths: Sequence[str | Path], config: NetworkConfig, cache_dir: str | Path | None,
-                 ) -> tuple[ObsStore, int, bool]:
-    """build_store, kept in `cache_dir` and reused while the files and the reading settings are the same.
+                 qc: bool = True) -> tuple[ObsStore, int, bool]:
+    """build_store (then apply_qc when `qc`), kept in `cache_dir` and reused while the files and the
+    reading and QC settings are the same.
 
     Returns (store, bad records skipped, whether the cache was used).
     """
@@ -648,6 +689,7 @@ def cached_store(paths: Sequence[str | Path], config: NetworkConfig, cache_dir: 
         "files": [[str(Path(p).resolve()), Path(p).stat().st_size, Path(p).stat().st_mtime_ns]
                   for p in paths if Path(p).exists()],
         "input": config.input.model_dump(), "network": config.network.model_dump(),
+        "qc": config.qc.model_dump(), "stations": [st.id for st in config.stations], "qc_applied": qc,
     }, sort_keys=True)
     if cache_dir is not None:
         d = Path(cache_dir)
@@ -660,6 +702,8 @@ def cached_store(paths: Sequence[str | Path], config: NetworkConfig, cache_dir: 
             except (OSError, ValueError):
                 pass
     store, bad = build_store(paths, config)
+    if qc:
+        store = apply_qc(store, config)
     if cache_dir is not None:
         d = Path(cache_dir)
         store.save(d)

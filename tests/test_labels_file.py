@@ -39,7 +39,7 @@ def test_offsets_and_blank_lines(tmp_path: Path) -> None:
     ('{"station": "S1", "kind": "Breeze Front", "time": "2026-01-14T10:37Z"}', "field 'kind'"),
     ('{"station": "", "kind": "breeze_front", "time": "2026-01-14T10:37Z"}', "field 'station'"),
     ('{"station": "S1", "kind": "breeze_front", "time": "2026-01-14T10:37Z", "status": "maybe"}', "field 'status'"),
-    ('{"station": "S1", "kind": "breeze_front", "time": "2026-01-14T10:37Z", "stauts": "confirmed"}', "'stauts'"),
+    ('{"station": "S1", "kind": "breeze_front", "time": "2026-01-14T10:37Z", "stauts": "confirmed"}', "did you mean 'status'"),
     ('{"station": "S1", "kind": "breeze_front", "time": "2026-01-14T10:37Z", "note": 3}', "field 'note'"),
     ('{"station": "S1", "kind": ', "not valid JSON"),
     ('["S1", "breeze_front"]', "expected a JSON object"),
@@ -60,6 +60,17 @@ def test_every_bad_line_is_reported(tmp_path: Path) -> None:
     with pytest.raises(LabelError) as err:
         read_labels(p)
     assert "line 1" in str(err.value) and "line 2" in str(err.value)
+
+
+def test_extra_fields_are_kept(tmp_path: Path) -> None:
+    p = tmp_path / "l.jsonl"
+    line = {"station": "S1", "kind": "breeze_front", "time": "2026-01-14T02:37:00Z", "front": "f-1",
+            "transition_min": 6}
+    p.write_text(json.dumps(line) + "\n")
+    (lb,) = read_labels(p)
+    assert dict(lb.extra) == {"front": "f-1", "transition_min": 6}
+    write_labels(p, [lb])
+    assert json.loads(p.read_text()) == line
 
 
 def test_missing_file(tmp_path: Path) -> None:

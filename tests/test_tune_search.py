@@ -24,6 +24,7 @@ from frontwatch.labels import Label, read_labels, write_labels
 from frontwatch.timeutil import LocalClock, iso_z
 from frontwatch.tune import (
     ObsStore,
+    build_store,
     cached_store,
     candidates,
     detector_toml,
@@ -131,7 +132,11 @@ def test_store_round_trip_gives_the_same_events(scenario: tuple[Path, Path, Path
     from frontwatch.replay import run_replay
 
     ref = [e.to_dict() for e in run_replay([obs], cfg).events]
-    assert [e.to_dict() for e in run_detector(ObsStore.load(tmp_path / "cache"), cfg)] == ref
+    loaded = ObsStore.load(tmp_path / "cache")
+    assert loaded.qc_done  # the search path: QC once, detectors fed directly
+    assert [e.to_dict() for e in run_detector(loaded, cfg)] == ref
+    raw, _ = build_store([obs], cfg)  # the Engine.feed path
+    assert not raw.qc_done and [e.to_dict() for e in run_detector(raw, cfg)] == ref
     assert sum(1 for e in ref if e["kind"] == "breeze_front") >= 6
 
 
@@ -145,7 +150,7 @@ def test_space_file_errors() -> None:
 
 
 def test_candidates_grid_and_random() -> None:
-    base = DetectorSettings()
+    base = DetectorSettings.model_validate({})
     sp = parse_space({"search": {"method": "grid"},
                       "params": {"confirm_min": {"low": 2, "high": 4}, "min_score": {"values": [4.0, 6.0]}}})
     grid = candidates(sp, base)

@@ -129,7 +129,7 @@ def register(app: typer.Typer) -> None:
         from ..errors import FrontwatchError
         from ..labels import Label, write_labels
         from ..report import panel_figure
-        from ..tune import build_store, run_detector
+        from ..tune import apply_qc, build_store, run_detector
 
         cfg = _config("label", config)
         if out.exists() and not force:
@@ -138,7 +138,7 @@ def register(app: typer.Typer) -> None:
             store, bad = build_store(files, cfg)
         except FrontwatchError as exc:
             raise _fail("label", str(exc)) from None
-        events = run_detector(store, cfg)
+        events = run_detector(apply_qc(store, cfg), cfg)  # the plots below show the raw records
         cands = [Label(e.station, e.kind, e.onset,
                        f"event {e.id}, confidence {e.confidence:.2f}; set status to confirmed or rejected "
                        "(and fix kind/time if needed)", "unreviewed") for e in events]

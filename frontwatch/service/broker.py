@@ -5,7 +5,6 @@ Real deployments use a real broker; this one keeps everything in the process's m
 
 from __future__ import annotations
 
-import asyncio
 import logging
 import socket
 from types import TracebackType
@@ -41,22 +40,8 @@ class EmbeddedBroker:
             "plugins": {"amqtt.plugins.authentication.AnonymousAuthPlugin": {"allow_anonymous": True}},
         }
         broker = Broker(config)
-        await broker.start()
+        await broker.start()  # returns once the listener is bound
         self._broker = broker
-        await self._wait_listening()
-
-    async def _wait_listening(self, timeout: float = 5.0) -> None:
-        loop = asyncio.get_running_loop()
-        end = loop.time() + timeout
-        while True:
-            try:
-                _r, w = await asyncio.open_connection(self.host, self.port)
-                w.close()
-                return
-            except OSError:
-                if loop.time() > end:
-                    raise
-                await asyncio.sleep(0.05)
 
     async def stop(self) -> None:
         if self._broker is not None:

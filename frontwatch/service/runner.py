@@ -111,8 +111,8 @@ class Service:
             new = self.store.commit_batch((), outputs)
             log.info("re-fed %d journalled records: %d outputs, %d not stored before", n, len(outputs), len(new))
         self._sync_engine_counters(count=False)
-        for out in self.store.outputs()[-200:]:
-            self.hub.emit(out)
+        for stored in self.store.outputs()[-200:]:
+            self.hub.emit(stored)
         return n
 
     # --- the whole service ------------------------------------------------------------------
@@ -300,11 +300,11 @@ class Service:
         new = set(self.store.commit_batch(journal, outputs)) if (journal or outputs) else set()
         for item in batch:
             self._ack(item)
-        for key, _topic, out, _retain, _created in outputs:
+        for key, _topic, payload, _retain, _created in outputs:
             if key in new:
-                hub.emit(out)
+                hub.emit(payload)
                 if self.on_output is not None:
-                    self.on_output(out)
+                    self.on_output(payload)
         if new:
             self._publish_wakeup.set()
 

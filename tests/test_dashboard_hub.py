@@ -8,11 +8,11 @@ import math
 import time
 
 import pytest
-from tests.test_dashboard_support import T0, network, observation, passage
 
 from frontwatch.errors import ConfigError
 from frontwatch.obs import Observation
 from frontwatch.service.hub import DashboardHub, load_shoreline
+from tests.test_dashboard_support import T0, network, observation, passage
 
 
 def test_memory_is_bounded_by_stations_not_time() -> None:

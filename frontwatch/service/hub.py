@@ -185,6 +185,7 @@ class DashboardHub:
         self.events: deque[dict[str, Any]] = deque(maxlen=200)
         self.site_state: dict[str, dict[str, Any]] = {}
         self.forecasts: dict[str, dict[str, Any]] = {}
+        self.courses: dict[str, dict[str, Any]] = {}  # race-course summaries (type 'course') by site
         self.front: dict[str, Any] | None = None
         self.received_wall: dict[str, float] = {}
         self.qc_trouble: dict[str, int] = {}
@@ -221,7 +222,7 @@ class DashboardHub:
         """An event, forecast or alert object (its contract JSON). No 'type' means a passage event."""
         kind = _KIND_RE.sub("", str(out.get("type", "event")).lower()) or "event"
         site = str(out.get("site", ""))
-        if "site" in out and site not in self._site_ids:
+        if ("site" in out or kind in ("alert", "forecast", "course")) and site not in self._site_ids:
             self.ignored += 1
             return
         item = {**out, "type": kind}
@@ -238,6 +239,10 @@ class DashboardHub:
                 self.alert_log.append(item)
             elif kind == "forecast":
                 self.forecasts[site] = item
+            elif kind == "course":
+                self.courses[site] = item
+            # A front drawn by the tracker may come as its own output or inside another one; the
+            # tracker's forecasts name their front by key (a string), which the page shows as text.
             if isinstance(out.get("front"), dict):
                 self.front = {**out["front"], "issued_at": out.get("issued_at")}
             elif kind == "front":
@@ -320,7 +325,8 @@ class DashboardHub:
                       "station": s.station or self._nearest_station(s.lat, s.lon),
                       "gust_limit_ms": s.gust_limit_ms, "shift_limit_deg": s.shift_limit_deg,
                       "course_axis_deg": s.course_axis_deg,
-                      "alert": self.site_state.get(s.id), "forecast": self.forecasts.get(s.id)}
+                      "alert": self.site_state.get(s.id), "forecast": self.forecasts.get(s.id),
+                      "course": self.courses.get(s.id)}
                      for s in self.config.sites]
             doc = {"network": self.config.network.name, "seq": self.seq, "server_time": now,
                    "data_time": None if self.data_time is None else iso_z(self.data_time),

@@ -77,7 +77,7 @@ async function loadState() {
     });
   }
   S.sites.clear();
-  for (const s of st.sites) S.sites.set(s.id, { cfg: s, alert: s.alert, forecast: s.forecast, node: null });
+  for (const s of st.sites) S.sites.set(s.id, { cfg: s, alert: s.alert, forecast: s.forecast, course: s.course, node: null });
   S.events = st.events || [];
   S.alerts = st.alerts || [];
   S.front = st.front;
@@ -166,7 +166,8 @@ function buildMap(shore) {
     const [x, y] = S.proj.xy(s.cfg.lat, s.cfg.lon);
     const g = el("g", { class: "site", "data-site": id }, gSites);
     el("path", { d: `M${x},${y - 8} L${x + 8},${y} L${x},${y + 8} L${x - 8},${y} z` }, g);
-    el("text", { x: x + 11, y: y + 4 }, g).textContent = s.cfg.name || id;
+    const right = x > S.proj.W * 0.6; // keep long names inside the map
+    el("text", { x: right ? x - 11 : x + 11, y: y + 4, "text-anchor": right ? "end" : "start" }, g).textContent = s.cfg.name || id;
     s.xy = [x, y];
     s.mapNode = g;
   }
@@ -336,11 +337,13 @@ function drawFront() {
 // ---------------------------------------------------------------- site cards
 function siteExpectedWind(site) {
   const f = site.forecast || {};
-  const dir = [f.wind_dir_after_deg, f.expected_wind_dir_deg, f.post_wind_dir_deg].find(fin);
-  const spd = [f.speed_after_ms, f.expected_speed_ms, f.post_speed_ms].find(fin);
-  const gst = [f.gust_after_ms, f.expected_gust_ms, f.post_gust_ms].find(fin);
-  if (dir !== undefined || spd !== undefined) return { dir, spd, gst, src: "forecast" };
-  // Otherwise: what stations behind the front have measured after their recent passages.
+  const x = f.expected && typeof f.expected === "object" ? f.expected : {};
+  const dir = [x.wind_dir_deg, f.wind_dir_after_deg].find(fin);
+  const spd = [x.wind_speed_ms, f.speed_after_ms].find(fin);
+  const gst = [x.wind_gust_ms, f.gust_after_ms].find(fin);
+  if (dir !== undefined || spd !== undefined || gst !== undefined)
+    return { dir, spd, gst, dT: x.temp_change_c, src: "forecast, from upstream stations" };
+  // No forecast yet: what stations have measured after their recent breeze-front passages.
   let sx = 0, sy = 0, n = 0, sp = 0, nsp = 0, g = -Infinity;
   for (const e of S.events) {
     if (e.kind !== "breeze_front" || S.dataTime === null || S.dataTime - tparse(e.onset) > FRONT_WINDOW_S) continue;
@@ -352,7 +355,7 @@ function siteExpectedWind(site) {
   }
   if (!n) return null;
   return { dir: ((Math.atan2(sx, sy) * 180) / Math.PI + 360) % 360, spd: nsp ? sp / nsp : undefined,
-    gst: isFinite(g) ? g : undefined, src: `measured after ${n} recent passage${n > 1 ? "s" : ""}` };
+    gst: isFinite(g) ? g : undefined, src: `page estimate: measured after ${n} recent passage${n > 1 ? "s" : ""}` };
 }
 function buildCards() {
   const box = document.getElementById("sites");
@@ -377,7 +380,8 @@ function drawCard(id) {
   if (s.mapNode) s.mapNode.setAttribute("class", "site " + cls);
   n.eta.textContent = "";
   if (!f) n.eta.append("no forecast yet");
-  else if (!f.eta) n.eta.append("not expected ", small("front stalled or not heading here"));
+  else if (f.status === "arrived") n.eta.append("front arrived", small(f.eta ? " at " + localHM(tparse(f.eta)) : ""));
+  else if (!f.eta) n.eta.append("not expected ", small(f.reason ? String(f.reason).replace(/_/g, " ") : "front stalled or not heading here"));
   else {
     const eta = tparse(f.eta), dt = S.dataTime === null ? null : eta - S.dataTime;
     if (dt === null) n.eta.append("ETA " + localHM(eta));
@@ -387,15 +391,18 @@ function drawCard(id) {
   }
   n.dl.textContent = "";
   const row = (k, v, cl) => { h("dt", null, k, n.dl); const dd = h("dd", cl || null, v, n.dl); return dd; };
-  if (f && f.eta) {
+  if (f && f.eta && (f.eta_earliest || f.eta_latest)) {
     row("window", `${localHM(tparse(f.eta_earliest))} – ${localHM(tparse(f.eta_latest))}` +
       (f.basis ? ` (${f.basis === "prior" ? "from a prior speed" : f.basis === "fit" ? "fitted to passages" : f.basis})` : ""));
   }
   if (f && (fin(f.front_speed_ms) || fin(f.front_heading_deg)))
-    row("front", `${fmt(f.front_speed_ms, 1, " m/s")} toward ${fmt(f.front_heading_deg, 0, "°")}`);
+    row("front", `${fmt(f.front_speed_ms, 1, "")}${fin(f.front_speed_sd_ms) ? " ± " + fmt(f.front_speed_sd_ms, 1, "") : ""} m/s ` +
+      `toward ${fmt(f.front_heading_deg, 0, "°")}${fin(f.front_heading_sd_deg) ? " ± " + fmt(f.front_heading_sd_deg, 0, "°") : ""}` +
+      (fin(f.stations) ? `, ${f.stations} stations` : "") + (typeof f.front === "string" ? ` (${f.front})` : ""));
   const w = siteExpectedWind(s);
   if (w) {
-    const dd = row("after front", `${fmt(w.dir, 0, "°")} ${fmt(w.spd, 1, " m/s")}` + (fin(w.gst) ? `, gusts ${fmt(w.gst, 1, " m/s")}` : "") + ` (${w.src})`);
+    const dd = row("after front", `${fmt(w.dir, 0, "°")} ${fmt(w.spd, 1, " m/s")}` + (fin(w.gst) ? `, gusts ${fmt(w.gst, 1, " m/s")}` : "") +
+      (fin(w.dT) ? `, temperature ${w.dT > 0 ? "+" : ""}${fmt(w.dT, 1, " °C")}` : "") + ` (${w.src})`);
     if (fin(w.gst) && fin(s.cfg.gust_limit_ms) && w.gst >= s.cfg.gust_limit_ms) {
       dd.append(" ");
       h("span", "over", `at or above site gust limit ${s.cfg.gust_limit_ms} m/s`, dd);
@@ -413,6 +420,22 @@ function drawCard(id) {
     if (stat !== "ok") { dd.append(" "); h("span", "stale-warn", stat === "stale" ? "STALE" : "NO DATA", dd); }
   }
   if (a && a.headline) row("alert", `${a.headline}` + (fin(a.seq) ? ` (#${a.seq})` : ""));
+  if (a && Array.isArray(a.thresholds_exceeded) && a.thresholds_exceeded.length) {
+    const dd = row("limits", "");
+    h("span", "over", a.thresholds_exceeded.map((e) => `${String(e.quantity).replace(/_/g, " ")} ${e.expected} ${e.unit} ` +
+      `reaches limit ${e.limit} ${e.unit}`).join("; "), dd);
+  }
+  if (a && Array.isArray(a.data_warnings) && a.data_warnings.length) {
+    const dd = row("data", "");
+    h("span", "stale-warn", a.data_warnings.join("; "), dd);
+  }
+  const c = s.course;
+  if (c) {
+    const w0 = (c.windows || [])[0];
+    row("course", `${c.pattern || "?"}` + (fin(c.shift_deg) ? `, shift ${c.shift_deg}°` : "") +
+      (w0 ? `, ${w0.minutes}-min mean ${fmt(w0.dir_deg, 0, "°")} ± ${fmt(w0.spread_deg, 0, "°")} ${fmt(w0.speed_ms, 1, " m/s")}` : "") +
+      (c.new_breeze ? `, new breeze since ${localHM(tparse(c.new_breeze_since))}` : ""));
+  }
 }
 function small(t) { const e = document.createElement("small"); e.textContent = t; return e; }
 
@@ -424,7 +447,7 @@ function drawLogs() {
   for (const a of S.alerts.slice(-60).reverse()) {
     const li = h("li", stateClass(a.state), null, al);
     h("span", "t", localHM(tparse(a.issued_at)), li);
-    h("span", "k", `${a.site} ${String(a.state || "").replace(/_/g, " ")}`, li);
+    h("span", "k", `${a.site_name || a.site} ${String(a.state || "").replace(/_/g, " ")}`, li);
     li.append(" " + (a.headline || "") + (a.eta ? ` · ETA ${localHM(tparse(a.eta))}` : ""));
   }
   const pl = document.getElementById("passages");
@@ -599,7 +622,9 @@ function flush() {
   } else {
     for (const id of S.dirty) drawStation(id, now);
     S.dirty.clear();
+    if (S.dirtySites) for (const id of S.sites.keys()) drawCard(id);
   }
+  S.dirtySites = false;
   if (S.traceDirty && now - S.lastTraceDraw > 1000) drawTrace();
   else if (S.traceDirty) setTimeout(() => schedule(), 1000);
   drawClock();
@@ -641,6 +666,7 @@ function onAlert(a) {
   takeFront(a);
   schedule(true);
 }
+function onCourse(c) { const s = S.sites.get(c.site); if (s) { s.course = c; S.dirtySites = true; schedule(); } }
 function takeFront(o) { if (o && o.front && typeof o.front === "object") S.front = o.front; }
 
 function openStream(since) {
@@ -652,6 +678,7 @@ function openStream(since) {
   es.addEventListener("event", wrap(onEvent));
   es.addEventListener("forecast", wrap(onForecast));
   es.addEventListener("alert", wrap(onAlert));
+  es.addEventListener("course", wrap(onCourse));
   es.addEventListener("front", wrap((f) => { S.front = f; schedule(true); }));
   es.addEventListener("resync", () => { es.close(); resync(); });
   es.onopen = () => { S.lostSince = null; setLink("ok", "live"); };

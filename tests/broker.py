@@ -90,3 +90,33 @@ class Mosquitto:
     @property
     def url(self) -> str:
         return f"mqtt://127.0.0.1:{self.port}"
+
+
+# --- helpers for tests that drive the service -------------------------------------------------
+
+async def wait_until(cond, timeout: float = 10.0, every: float = 0.02) -> bool:  # type: ignore[no-untyped-def]
+    """Poll `cond()` until true or `timeout` seconds pass; returns the last value."""
+    import asyncio
+
+    loop = asyncio.get_running_loop()
+    end = loop.time() + timeout
+    while not cond():
+        if loop.time() > end:
+            return bool(cond())
+        await asyncio.sleep(every)
+    return True
+
+
+async def feed_in_steps(svc, messages, settings, step: int = 400, timeout: float = 30.0) -> None:  # type: ignore[no-untyped-def]
+    """Publish `messages` in steps, waiting for the in-process service to take each step: a broker
+    drops QoS 1 messages for a subscriber that falls far behind (Mosquitto's max_queued_messages),
+    and the test publisher shares the service's event loop."""
+    from frontwatch.service.publish import publish_messages
+
+    base = svc.taken
+    for k in range(0, len(messages), step):
+        part = messages[k:k + step]
+        await publish_messages(part, settings)
+        target = base + k + len(part)
+        assert await wait_until(lambda t=target: svc.taken >= t, timeout), (svc.taken, target)
+    assert await wait_until(lambda: not svc.store.unpublished(1), timeout)

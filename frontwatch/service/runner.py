@@ -26,6 +26,7 @@ import uvicorn
 
 from ..config import NetworkConfig
 from ..engine import Engine
+from ..errors import DecodeError
 from ..events import PassageEvent
 from ..obs import Observation, decode_payload
 from .hub import DashboardHub
@@ -174,7 +175,9 @@ class Service:
                         await client.publish(status, b"offline", qos=1, retain=True, timeout=3)
             except aiomqtt.MqttError as exc:
                 failures += 1
-                if was_up or failures == 1:
+                if was_up:
+                    log.warning("lost the broker %s (%s); reconnecting with backoff", s.broker.url, exc)
+                elif failures == 1:
                     log.warning("broker %s unavailable (%s); retrying with backoff", s.broker.url, exc)
                 was_up = False
             finally:
@@ -254,8 +257,13 @@ class Service:
         if st is None:
             return [], []
         gateway = st in self.gateways or topic in self.gateways
-        return decode_payload(payload, topic_station=st, may_speak_for=(lambda _s: True) if gateway else None,
-                              naive_tz=self.config.naive_tz)
+        try:
+            return decode_payload(payload, topic_station=st, may_speak_for=(lambda _s: True) if gateway else None,
+                                  naive_tz=self.config.naive_tz)
+        except (RecursionError, MemoryError, ValueError, TypeError) as exc:
+            # The decoder refuses what it knows; a payload that trips the JSON parser itself (nesting
+            # too deep) must not stop the stream either.
+            return [], [DecodeError(f"undecodable payload: {type(exc).__name__}", station=st, code="undecodable")]
 
     def process_batch(self, batch: list[_Item]) -> None:
         """Decode, feed, store, acknowledge; synchronous on purpose (see the module docstring)."""

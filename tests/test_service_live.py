@@ -1,0 +1,167 @@
+"""The live service against a real broker: the same events as an offline replay, refused payloads
+counted by reason while the stream goes on, status topic with last will, metrics page."""
+
+from __future__ import annotations
+
+import asyncio
+import json
+import math
+import socket
+
+import aiomqtt
+import httpx
+import pytest
+from broker import feed_in_steps, wait_until
+
+from frontwatch.config import load_network
+from frontwatch.replay import read_observations, run_replay
+from frontwatch.service.metrics import ServiceMetrics
+from frontwatch.service.publish import plan_messages, publish_messages
+from frontwatch.service.runner import Service
+from frontwatch.service.settings import ServiceSettings, parse_broker_url
+
+pytestmark = pytest.mark.broker
+
+
+def _settings(url: str, prefix: str, **kw: object) -> ServiceSettings:
+    base: dict[str, object] = {"broker": parse_broker_url(url), "prefix": prefix, "client_id": prefix + "-svc",
+                               "db_path": None, "http_port": None, "backoff_min_s": 0.1, "backoff_max_s": 1.0}
+    base.update(kw)
+    return ServiceSettings(**base)  # type: ignore[arg-type]
+
+
+async def _collect(url: str, topic: str, into: list[tuple[str, bytes, bool]], ready: asyncio.Event) -> None:
+    b = parse_broker_url(url)
+    async with aiomqtt.Client(b.host, b.port) as c:
+        await c.subscribe(topic, qos=1)
+        ready.set()
+        async for m in c.messages:
+            into.append((m.topic.value, bytes(m.payload), m.retain))  # type: ignore[arg-type]
+
+
+async def test_live_events_equal_replay(broker_url: str, prefix: str, scenario, tmp_path) -> None:  # type: ignore[no-untyped-def]
+    net, obs = scenario
+    cfg = load_network(net)
+    reference = run_replay([obs], cfg)
+    ref_events = [e.to_dict() for e in reference.events]
+    ref_other = [o.to_dict() for o in reference.outputs if "type" in o.to_dict()]
+    assert len(ref_events) == 6  # the scenario has one passage per station a day
+
+    st = _settings(broker_url, prefix, db_path=tmp_path / "state.sqlite")
+    svc = Service(cfg, st)
+    stop = asyncio.Event()
+    got: list[tuple[str, bytes, bool]] = []
+    ready = asyncio.Event()
+    sub = asyncio.create_task(_collect(broker_url, prefix + "/#", got, ready))
+    await ready.wait()
+    run = asyncio.create_task(svc.run(stop))
+    assert await wait_until(svc.connected.is_set, 10)
+    await feed_in_steps(svc, plan_messages(read_observations([obs], cfg), prefix), st)
+    assert await wait_until(lambda: sum(1 for t, _, _ in got if "/events/" in t) >= len(ref_events), 10)
+    await asyncio.sleep(0.3)  # would a duplicate follow?
+    stop.set()
+    await run
+    await asyncio.sleep(0.2)
+    sub.cancel()
+
+    live = [json.loads(p) for t, p, _ in got if "/events/" in t]
+    assert sorted(live, key=lambda d: d["id"]) == sorted(ref_events, key=lambda d: d["id"])
+    assert len({d["id"] for d in live}) == len(live)  # none twice
+    for t, p, _ in got:
+        if "/events/" in t:
+            assert t == f"{prefix}/events/{json.loads(p)['station']}"
+    other = [json.loads(p) for t, p, _ in got if "/forecasts/" in t or "/alerts/" in t]
+    assert sorted(map(json.dumps, other)) == sorted(map(json.dumps, ref_other))
+    status = [p for t, p, _ in got if t == f"{prefix}/status"]
+    assert status[0] == b"online" and status[-1] == b"offline"
+    assert svc.engine.stats.records == reference.stats.records
+
+
+async def test_refused_payloads_counted_by_reason(broker_url: str, prefix: str, scenario) -> None:  # type: ignore[no-untyped-def]
+    net, obs = scenario
+    cfg = load_network(net)
+    st = _settings(broker_url, prefix, http_port=0)
+    metrics = ServiceMetrics()
+    svc = Service(cfg, st, metrics=metrics)
+    stop = asyncio.Event()
+    run = asyncio.create_task(svc.run(stop))
+    assert await wait_until(svc.connected.is_set, 10)
+    good = {"station": "GR01", "time": "2026-01-01T00:00:00Z", "wind_dir_deg": 270, "wind_speed_ms": 3.0,
+            "temp_c": 25.0, "dewpoint_c": 14.0}
+    bad: list[tuple[str, bytes]] = [
+        ("GR02", json.dumps(good).encode()),                                 # names another station
+        ("GR01", b'{"station": "GR01", "time": '),                            # malformed JSON
+        ("GR01", json.dumps({**good, "temp_c": "warm"}).encode()),            # wrong type
+        ("GR01", json.dumps({**good, "wind_speed_ms": [1]}).encode()),        # wrong type
+        ("GR01", json.dumps({**good, "temp_c": math.nan}).encode()),          # NaN literal
+        ("GR01", json.dumps({**good, "time": "yesterday"}).encode()),         # bad time
+        ("GR01", b'{"station": "GR01", "x": "' + b"y" * 1_100_000 + b'"}'),  # huge payload
+        ("GR01", b"\xff\xfe\x00garbage"),                                      # not text
+        ("GR01", b"[1, 2]"),                                                   # not objects (2 records)
+    ]
+    t_pub = f"{prefix}/obs/"
+    b = parse_broker_url(broker_url)
+    async with aiomqtt.Client(b.host, b.port) as c:
+        for sid, payload in bad:
+            await c.publish(t_pub + sid, payload, qos=1)
+        for k in range(3):  # the stream goes on after them
+            rec = {**good, "time": f"2026-01-01T00:0{k + 1}:00Z"}
+            await c.publish(t_pub + "GR01", json.dumps(rec).encode(), qos=1)
+        await c.publish(t_pub + "XX99", json.dumps({**good, "station": "XX99"}).encode(), qos=1)
+        gw = [{**good, "station": "GR02"}, {**good, "station": "GR03"}, {**good, "station": "ZZ", "time": 5}]
+        await c.publish(t_pub + "gw1", json.dumps(gw).encode(), qos=1)
+    assert await wait_until(lambda: svc.taken >= len(bad) + 5, 10)
+    refused = {s.labels["reason"]: s.value for s in metrics.refused.collect()[0].samples
+               if s.name.endswith("_total")}
+    assert refused == {"station_mismatch": 1, "malformed_json": 2, "wrong_type": 2, "not_finite": 1,
+                       "bad_time": 2, "too_large": 1, "not_object": 2}
+    assert svc.engine.stats.used == 3 + 2  # three GR01 minutes, two gateway records
+    assert svc.engine.stats.unknown_stations == {"XX99": 1}
+    async with httpx.AsyncClient(follow_redirects=True) as h:
+        text = (await h.get(f"http://127.0.0.1:{svc.web_port}/metrics")).text
+    assert 'frontwatch_records_refused_total{reason="too_large"} 1.0' in text
+    assert "frontwatch_unknown_station_records_total 1.0" in text
+    assert 'frontwatch_station_last_seen_seconds{station="GR01"}' in text
+    assert "frontwatch_broker_connected 1.0" in text
+    stop.set()
+    await run
+
+
+async def test_last_will_says_offline_when_the_service_dies(broker_url: str, prefix: str, scenario) -> None:  # type: ignore[no-untyped-def]
+    """A crash (connection dropped without DISCONNECT) leaves the retained status 'offline'."""
+    net, _ = scenario
+    cfg = load_network(net)
+    st = _settings(broker_url, prefix)
+    svc = Service(cfg, st)
+    stop = asyncio.Event()
+    run = asyncio.create_task(svc.run(stop))
+    assert await wait_until(svc.connected.is_set, 10)
+    b = parse_broker_url(broker_url)
+    async with aiomqtt.Client(b.host, b.port) as c:
+        await c.subscribe(prefix + "/status", qos=1)
+        async with asyncio.timeout(5):
+            async for m in c.messages:
+                assert m.payload == b"online" and m.retain
+                break
+        client = svc._client
+        assert client is not None
+        client._client.socket().shutdown(socket.SHUT_RDWR)  # the connection dies as in a crash
+        async with asyncio.timeout(10):
+            async for m in c.messages:
+                if m.payload == b"offline":
+                    break
+    assert await wait_until(lambda: svc._gen >= 2 and svc.connected.is_set(), 10)  # it came back
+    stop.set()
+    await run
+
+
+async def test_publisher_speed_follows_data_time(broker_url: str, prefix: str) -> None:
+    """At N times real time, one data minute takes 60/N seconds of wall time."""
+    st = _settings(broker_url, prefix)
+    msgs = [(1000.0 + 60 * k, f"{prefix}/obs/A", b"{}", 1) for k in range(6)]
+    loop = asyncio.get_running_loop()
+    t0 = loop.time()
+    stats = await publish_messages(msgs, st, speed=600.0)  # 5 minutes of data -> 0.5 s
+    dt = loop.time() - t0
+    assert stats.messages == 6
+    assert 0.45 <= dt < 2.0

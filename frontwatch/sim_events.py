@@ -22,7 +22,7 @@ from .sim_plan import DayPlan
 from .sim_setting import Setting, unit
 from .sim_weather import MIN_PER_DAY, Clock, Fields, wind_vector
 
-G = 9.81
+G = 9.80665  # standard gravity, m/s2
 THETA = 300.0  # K, reference potential temperature
 
 
@@ -140,20 +140,24 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
     onshore = setting.onshore_from[:, None]
     # Veering (backing) mostly after the station's own onset, a little with the circulation's age.
     age_h = (0.3 * (m - m0) + 0.7 * np.clip(m - ma, 0.0, None)) / 60.0
-    direction = onshore + off[:, None] + np.clip(veer * age_h, -35.0, 35.0)
+    direction = onshore + off[:, None] + np.clip(veer * age_h, -30.0, 30.0)
     ub, vb_ = wind_vector(direction, vb[:, None])
     f = fields
-    keep = 0.15  # share of the large-scale wind left in the marine layer
-    f.u[:, sl] = f.u[:, sl] * (1.0 - (1.0 - keep) * w) + w * ub
-    f.v[:, sl] = f.v[:, sl] * (1.0 - (1.0 - keep) * w) + w * vb_
+    # Behind the front the marine layer keeps a little of the alongshore large-scale wind only.
+    ax, ay = unit(onshore + 90.0)
+    along = 0.15 * (f.u[:, sl] * ax + f.v[:, sl] * ay)
+    f.u[:, sl] = f.u[:, sl] * (1.0 - w) + w * (ub + along * ax)
+    f.v[:, sl] = f.v[:, sl] * (1.0 - w) + w * (vb_ + along * ay)
     f.gustiness[:, sl] *= 1.0 - 0.3 * w  # marine air is more stable: less gusty
     idx = np.clip(np.where(hit, arr, sl.start) - sl.start, 0, sl.stop - sl.start - 1).astype(int)
     t_at = f.temp[np.arange(n), sl.start + idx][:, None]
     tb = f.temp[:, sl]
     # Marine air: cooler by dT at passage, then warming at only a quarter of the inland rate.
+    # The marine air stays when the breeze dies in the evening: its coolness fades only as the land
+    # cools below it, and its moisture over a few hours.
     diff = np.minimum(0.0, -dT[:, None] - 0.75 * (tb - t_at))
-    f.temp[:, sl] = tb + w * diff
-    f.dew[:, sl] += w * dTd[:, None]
+    f.temp[:, sl] = tb + w_on * diff
+    f.dew[:, sl] += w_on * (1.0 - smoothstep((m - m_decay) / 240.0)) * dTd[:, None]
     f.pres[:, sl] += w * dp[:, None]
 
     labels = []
@@ -182,9 +186,9 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
         "speed_model": {
             "formula": "speed = early + (late - early) * min(1, hours_since_origin / accel_hours); "
                        "late = clip(k*sqrt(g*dtheta/theta*depth) - 0.6*opposing_wind, 1, 6)",
-            "early_ms": round(early, 3), "late_ms": round(late, 3), "accel_hours": round(acc_h, 3),
-            "k": round(float(k), 3), "dtheta_k": round(float(dtheta), 3), "depth_m": round(float(depth), 1),
-            "density_current_ms": round(u_dc, 3), "opposing_wind_ms": round(v_opp, 3)},
+            "early_ms": round(early, 6), "late_ms": round(late, 6), "accel_hours": round(acc_h, 6),
+            "k": round(float(k), 6), "dtheta_k": round(float(dtheta), 6), "depth_m": round(float(depth), 4),
+            "density_current_ms": round(u_dc, 6), "opposing_wind_ms": round(v_opp, 6)},
         "track": [{"time": iso(clock.start_epoch + track.minute[j] * 60.0),
                    "distance_km": round(float(track.distance_km[j]), 3),
                    "speed_ms": round(float(track.speed_ms[j]), 3)} for j in sel],

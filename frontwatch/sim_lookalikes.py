@@ -78,8 +78,8 @@ def apply_cold_front(fields: Fields, setting: Setting, cf: ColdFront, clock: Clo
     f.temp[:, sl] -= dT * smoothstep((m - tp) / rng.uniform(20.0, 60.0, n)[:, None]) * taper
     f.dew[:, sl] -= dTd * smoothstep((m - tp) / rng.uniform(20.0, 90.0, n)[:, None]) * taper
     gusty = smoothstep((m - tp) / 10.0) * (1.0 - smoothstep((m - tp - rng.uniform(180, 360, n)[:, None]) / 120.0))
-    f.gustiness[:, sl] *= 1.0 + 0.8 * gusty
-    f.gust_add[:, sl] += rng.uniform(2.0, 5.0, n)[:, None] * gusty * np.exp(-np.clip(m - tp, 0, None) / 60.0)
+    f.gustiness[:, sl] *= 1.0 + 0.5 * gusty
+    f.gust_add[:, sl] += rng.uniform(1.5, 4.0, n)[:, None] * gusty * np.exp(-np.clip(m - tp, 0, None) / 60.0)
     rain_start = tp + rng.uniform(-10.0, 10.0, n)[:, None]
     rain_len = rng.uniform(15.0, 40.0, n)[:, None]
     inside = (m >= rain_start) & (m < rain_start + rain_len)
@@ -121,12 +121,12 @@ def gust_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock,
     rise = smoothstep((m - ta) / up)
     w_wind = rise * (1.0 - smoothstep((m - ta - 0.6 * dur) / (0.4 * dur)))
     outflow = heading + 180.0 + rng.normal(0.0, 15.0, n)
-    uo, vo = wind_vector(outflow, rng.uniform(8.0, 14.0, n))
+    uo, vo = wind_vector(outflow, rng.uniform(7.0, 13.0, n))
     f = fields
     f.u[:, sl] = f.u[:, sl] * (1.0 - w_wind) + w_wind * uo[:, None]
     f.v[:, sl] = f.v[:, sl] * (1.0 - w_wind) + w_wind * vo[:, None]
-    f.gust_add[:, sl] += w_wind * (rng.uniform(4.0, 11.0, n) * q)[:, None] * np.exp(-np.clip(m - ta, 0, None) / 25.0)
-    f.gustiness[:, sl] *= 1.0 + 0.5 * w_wind
+    f.gust_add[:, sl] += w_wind * (rng.uniform(3.0, 8.0, n) * q)[:, None] * np.exp(-np.clip(m - ta, 0, None) / 25.0)
+    f.gustiness[:, sl] *= 1.0 + 0.3 * w_wind
     dp = (rng.uniform(2.0, 4.5, n) * (0.85 + 0.15 * q))[:, None]
     f.pres[:, sl] += dp * rise * (1.0 - smoothstep((m - ta - 0.5 * dur) / dur))
     dT = (rng.uniform(5.0, 11.0, n) * (0.85 + 0.15 * q))[:, None]

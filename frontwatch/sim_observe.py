@@ -2,7 +2,7 @@
 quantisation, sensor faults, and the canonical record table (DESIGN 3.1).
 
 Noise magnitudes at `noise_scale` 1 (from memory; ordinary automatic stations): wind turbulence
-0.25 m/s plus 12-20 % of the mean speed, minute to minute persistent; temperature 0.06-0.18 K;
+0.12 m/s at night and 0.3 m/s by day, plus 12-20 % of the mean speed, minute to minute persistent; temperature 0.06-0.18 K;
 dewpoint 0.12 K; pressure 0.03 hPa. Quantisation 0.1 degC, 1 deg, 0.1 m/s, 0.1 hPa, 0.2 mm rain
 (tipping bucket). A speed under 0.3 m/s (a cup anemometer's starting threshold, from memory) is
 calm: speed 0 and no direction. Faults after Zahumensky (2004): spikes, a stuck vane, dropouts and
@@ -63,7 +63,7 @@ def observe(fields: Fields, rng: np.random.Generator, noise_scale: float, smeare
     s = noise_scale
     solar = f.solar[None, :]
     mean_speed = np.hypot(f.u, f.v)
-    sigma = s * (0.25 + (0.12 + 0.08 * solar) * mean_speed)
+    sigma = s * (0.12 + 0.18 * solar + (0.12 + 0.08 * solar) * mean_speed)  # quieter at night
     u = f.u + sigma * ar1(rng, shape, 0.8)
     v = f.v + sigma * ar1(rng, shape, 0.8)
     temp = f.temp + s * ((0.06 + 0.12 * solar) * ar1(rng, shape, 0.9) + 0.03 * rng.standard_normal(shape))
@@ -72,7 +72,8 @@ def observe(fields: Fields, rng: np.random.Generator, noise_scale: float, smeare
     pres = f.pres + s * 0.03 * rng.standard_normal(shape)
 
     wdir, speed = direction_speed(u, v)
-    excess = f.gustiness * (0.3 + (0.22 + 0.15 * solar) * speed) * np.exp(0.3 * s * rng.standard_normal(shape))
+    spread = np.clip(np.exp(0.2 * s * rng.standard_normal(shape)), 0.5, 2.0)
+    excess = f.gustiness * (0.3 + (0.22 + 0.15 * solar) * speed) * spread
     gust = speed + excess + f.gust_add
     if smeared.any():
         su = running_mean(u[smeared], 10)

@@ -8,7 +8,7 @@ frequencies and background ranges are from memory (a plausible mid-latitude summ
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -132,5 +132,10 @@ def make_plan(rng: np.random.Generator, days: int, inland_bearing: float, south:
         elif kind == "overcast":
             amp_shore, amp_in = amp_shore * 0.4, amp_in * 0.35
         p_mean = float(np.clip(p_mean + rng.normal(0, 2.5), 1004, 1024))
-        plans.append(DayPlan(i, kind, extras, d, s, e, es, t_mean, amp_shore, amp_in, td, p_mean, sea))
+        plans.append(DayPlan(i, kind, extras, float(d), float(s), float(e), float(es), t_mean, amp_shore, amp_in, td, p_mean, sea))
+    # Ahead of a cold front the warm-sector wind sets in during the day before.
+    for i in range(len(plans) - 1):
+        nxt = plans[i + 1]
+        if nxt.kind == "cold_front":
+            plans[i] = replace(plans[i], end_from_deg=nxt.syn_from_deg, end_speed_ms=nxt.syn_speed_ms)
     return plans

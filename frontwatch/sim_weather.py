@@ -157,6 +157,9 @@ def build_background(setting: Setting, plans: list[DayPlan], clock: Clock, rng: 
     mixdry = rng.uniform(0.5, 2.0, (n, 1))
     dew = td_mean + rng.normal(0.0, 0.5, (n, 1)) - mixdry * solar * (1.0 - np.exp(-d / 10.0))
     dew += 0.5 * ar1(rng, (n, T), 0.998)
+    # Keep the air unsaturated: a soft floor of ~1.5 K on the dewpoint depression (fog is not modelled).
+    dep = temp - dew
+    dew = temp - (1.0 + np.logaddexp(0.0, (dep - 1.0) * 2.0) / 2.0)
 
     tide = 0.6 * np.cos(2 * np.pi * (hour - 10.0) / 12.0) + 0.3 * np.cos(2 * np.pi * (hour - 7.0) / 24.0)
     pres = p_mean - elev * 0.12 + tide - 0.5 * solar * (1.0 - np.exp(-d / 15.0))

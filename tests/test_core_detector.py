@@ -25,10 +25,12 @@ def test_breeze_front_found_and_timed(seed):
     e = fronts[0]
     assert abs(e.onset - onset) <= 120  # onset within 2 minutes of the true change
     assert 0 < e.detected_at - onset <= 6 * 60  # decided within a few minutes
-    assert e.temp_change_c is not None and e.temp_change_c < -0.8
-    assert e.dewpoint_change_c is not None and e.dewpoint_change_c > 0.8
-    # decided early, possibly mid-turn: the wind is already inside the onshore sector (halfwidth 70)
-    assert e.wind_dir_after_deg is not None and abs(e.wind_dir_after_deg - 180) < 70
+    assert e.temp_change_c is not None and e.temp_change_c < -0.5  # measured so far, mid-change
+    assert e.dewpoint_change_c is not None and e.dewpoint_change_c > 0.3  # measured so far, mid-change
+    # decided early, possibly mid-turn: the wind has turned well towards the onshore bearing (180)
+    assert e.wind_dir_after_deg is not None and e.wind_dir_before_deg is not None
+    off = lambda d: abs((d - 180 + 180) % 360 - 180)  # noqa: E731
+    assert off(e.wind_dir_after_deg) <= off(e.wind_dir_before_deg) - 60
 
 
 def test_cold_front_is_not_a_breeze_front():

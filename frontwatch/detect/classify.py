@@ -37,6 +37,8 @@ class Signature:
     onshore_before: float  # onshore wind component, m/s
     onshore_after: float
     after_offset_deg: float  # |dir_after - onshore bearing|
+    change_offset_deg: float  # |direction the added wind (after - before vector) blows from - onshore|
+    change_speed: float  # size of that added wind vector, m/s
     before_offset_deg: float
     temp_change: float
     temp_rate: float  # degC/min over the last two minutes (negative = still falling)
@@ -106,16 +108,24 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         return Decision("land_breeze", min(0.98, max(0.5, conf)), False)
 
     # 4. Breeze front: daytime, the wind comes into the onshore sector from outside it (or from calm),
-    # and marine air arrives: cooler against the trend and moister. The 'marine index' -dT + dTd
-    # (degC) weighs both, so a strong drop with a small moisture rise counts like the reverse.
-    onshore_after = sig.after_offset_deg <= halfwidth
-    came_onshore = calm_before or (turned and sig.before_offset_deg > halfwidth) or \
+    # and marine air arrives: cooler against the trend and moister (DOMAIN.md section 2). The
+    # 'marine index' -dT + dTd (degC) weighs both; moisture must rise where it is measured, since
+    # a cloud shadow cools without moistening (common practice).
+    onshore_after = sig.after_offset_deg <= halfwidth and _nz(sig.onshore_after) >= 1.0
+    # Early in a turn the latest wind may still be short of the sector while the change itself
+    # already blows from the water: the added wind vector points onshore and brings >= 1 m/s of it.
+    # The latest wind must itself already carry some onshore flow: a slackening offshore wind also adds
+    # an 'onshore' vector, but it still blows from the land.
+    turning_onshore = sig.change_offset_deg <= 0.75 * halfwidth and sig.change_speed >= 1.5 and \
+        _nz(sig.onshore_after) - _nz(sig.onshore_before) >= 1.0 and _nz(sig.onshore_after) >= 0.5 and \
+        sig.after_offset_deg <= halfwidth + 20.0
+    came_onshore = calm_before or sig.before_offset_deg > halfwidth or \
         (sig.before_offset_deg > 0.5 * halfwidth and sig.onshore_after - sig.onshore_before >= 1.5)
     marine = -dT + dTd if has_moist else -2.0 * dT
-    thermal = marine >= s.breeze_min_marine_index_c and dT <= 0.1 and (not has_moist or dTd >= -0.2) and \
-        (dT <= -s.breeze_min_temp_drop_c or dTd >= s.breeze_min_moisture_rise_c)
+    thermal = marine >= s.breeze_min_marine_index_c and dT <= 0.1 and \
+        (dTd >= s.breeze_min_moisture_rise_c if has_moist else dT <= -s.breeze_min_temp_drop_c)
     if daytime and thermal:
-        if onshore_after and settled and came_onshore:
+        if came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0)):
             margin = marine / s.breeze_min_marine_index_c + (halfwidth - sig.after_offset_deg) / halfwidth \
                 + sig.strength / 8.0
             return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 2.0))), False)

@@ -129,8 +129,12 @@ class StationDetector:
             self.pending = bool(dec.wait)
             return None
         self.pending = False
-        self.quiet_until = t_o + st.refractory_min * 60.0
-        if dec.kind in ("breeze_front", "land_breeze") and t_o - self.last_onset.get(dec.kind, -1e18) < st.repeat_min * 60:
+        # A wind shift is the weakest call: it only briefly blocks a stronger kind that may follow
+        # (a cold front's pre-frontal veer, a breeze front after a cloud-shadow wobble).
+        quiet = 10.0 if dec.kind == "wind_shift" else float(st.refractory_min)
+        self.quiet_until = t_o + quiet * 60.0
+        repeat = st.repeat_min if dec.kind in ("breeze_front", "land_breeze") else st.refractory_min
+        if t_o - self.last_onset.get(dec.kind, -1e18) < repeat * 60:
             return None  # the same regime going on (a wobble of the onshore wind), not a new passage
         self.last_onset[dec.kind] = float(t_o)
         conf = dec.confidence * (1.0 - math.exp(-sp.strength / st.min_score))
@@ -195,6 +199,9 @@ class StationDetector:
         gust = float(np.nanmax(g)) if np.isfinite(g).any() else NAN
         rr = arr[max(o - 5, 0):, _R]
         rain = float(np.nansum(rr)) if np.isfinite(rr).any() else NAN
+        du, dv = (ur - u0, vr - v0) if ur == ur and u0 == u0 else (NAN, NAN)
+        dspd = math.hypot(du, dv) if du == du else NAN
+        dchg = _dir_from(du, dv) if dspd == dspd and dspd > 0 else NAN
         on0 = -(u0 * self._sin_o + v0 * self._cos_o) if u0 == u0 else NAN
         on1 = -(ur * self._sin_o + vr * self._cos_o) if ur == ur else NAN
         return Signature(
@@ -202,6 +209,7 @@ class StationDetector:
             dir_before=d0, dir_after=d1, speed_before=s0, speed_after=s1, spread_after=spread,
             turn_deg=_angle(d0, d1), onshore_before=on0, onshore_after=on1,
             after_offset_deg=_angle(d1, onshore) if d1 == d1 else NAN,
+            change_offset_deg=_angle(dchg, onshore) if dchg == dchg else 180.0, change_speed=_nz0(dspd),
             before_offset_deg=_angle(d0, onshore) if d0 == d0 else 180.0,
             temp_change=float(rec[0] - pre[0]), temp_rate=rate, dewpoint_change=float(rec[1] - pre[1]),
             pressure_change=float(rec[4] - pre[4]), pressure_jump=pj, gust_after=gust, rain_after=rain,
@@ -225,6 +233,10 @@ class StationDetector:
 def _nanmean(a: np.ndarray) -> float:
     ok = np.isfinite(a)
     return float(a[ok].mean()) if ok.any() else NAN
+
+
+def _nz0(x: float) -> float:
+    return 0.0 if x != x else x
 
 
 def _opt(x: float) -> float | None:

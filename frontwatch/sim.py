@@ -160,9 +160,10 @@ def generate(spec: ScenarioSpec | None = None) -> Scenario:
             nuisances += light_variable(fields, setting, p, clock, r_ev)
         if p.kind in BREEZE_KINDS:
             day = (date(1970, 1, 1) + timedelta(days=clock.start_local_days + p.index)).strftime("%Y%m%d")
-            lab, front = breeze_front(fields, setting, p, clock, r_ev, spec.weak_inland, f"front-{day}")
+            lab, front, ends = breeze_front(fields, setting, p, clock, r_ev, spec.weak_inland, f"front-{day}")
             labels += lab
             fronts.append(front)
+            nuisances += ends
         if p.kind == "cold_front":
             labels += apply_cold_front(fields, setting, colds[p.index], clock, r_ev)
         if p.kind == "storm" or "gust_front" in p.extras:
@@ -187,6 +188,7 @@ def generate(spec: ScenarioSpec | None = None) -> Scenario:
     faults = add_faults(rep, r_fault, clock, ids, spec.fault_rate) if spec.fault_rate > 0 else []
     table = to_table(rep, clock, ids, r_fault, spec.fault_rate, faults)
     labels.sort(key=lambda x: (x["time"], x["station"]))
+    nuisances.sort(key=lambda x: (x["time"], x["station"]))
     _note_faults(labels, faults)
 
     smeared_ids = {ids[i] for i in np.flatnonzero(smeared)}

@@ -85,8 +85,8 @@ def _track(rng: np.random.Generator, m0: float, m_end: float, early: float, late
 
 
 def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, rng: np.random.Generator,
-                 weak_inland: bool, front_id: str) -> tuple[list[dict[str, Any]], dict[str, Any]]:
-    """Apply one day's breeze front to the fields; return (labels, front description)."""
+                 weak_inland: bool, front_id: str) -> tuple[list[dict[str, Any]], dict[str, Any], list[dict[str, Any]]]:
+    """Apply one day's breeze front to the fields; return (labels, front description, breeze ends)."""
     south = setting.hemisphere == "south"
     B = setting.inland_bearing_deg
     dev = float(np.clip(rng.normal(0.0, 8.0), -20.0, 20.0))
@@ -167,6 +167,11 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
                        "transition_min": round(float(tau[i]), 1),
                        "change": {"temp_c": round(-float(dT[i]), 2), "dewpoint_c": round(float(dTd[i]), 2),
                                   "pressure_hpa": round(float(dp[i]), 2), "speed_after_ms": round(float(vb[i]), 2)}})
+    # The breeze dying in the evening (the large-scale wind returns) is a real wind shift but no
+    # passage: kept as a nuisance record, not a label.
+    ends = [{"station": setting.stations[i].id, "kind": "breeze_end", "front": front_id,
+             "time": iso(clock.start_epoch + m_decay * 60.0), "duration_min": round(float(decay_len), 1)}
+            for i in np.flatnonzero(hit)]
     a_ref = setting.along_span_km[0] if math.sin(math.radians(dev)) > 0 else setting.along_span_km[1]
     ox, oy = _shore_point(setting, a_ref)
     olat, olon = setting.latlon(ox, oy)
@@ -200,8 +205,9 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
                              for p, x in zip(setting.stations, arr, strict=True)},
         "site_arrivals": {s.id: (None if np.isnan(x) else iso(clock.start_epoch + x * 60.0))
                           for s, x in zip(setting.sites, site_arr, strict=True)},
+        "breeze_end_time": iso(clock.start_epoch + m_decay * 60.0),
     }
-    return labels, front
+    return labels, front, ends
 
 
 def _shore_point(setting: Setting, along: float) -> tuple[float, float]:

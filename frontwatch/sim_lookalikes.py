@@ -78,8 +78,8 @@ def apply_cold_front(fields: Fields, setting: Setting, cf: ColdFront, clock: Clo
     f.temp[:, sl] -= dT * smoothstep((m - tp) / rng.uniform(20.0, 60.0, n)[:, None]) * taper
     f.dew[:, sl] -= dTd * smoothstep((m - tp) / rng.uniform(20.0, 90.0, n)[:, None]) * taper
     gusty = smoothstep((m - tp) / 10.0) * (1.0 - smoothstep((m - tp - rng.uniform(180, 360, n)[:, None]) / 120.0))
-    f.gustiness[:, sl] *= 1.0 + 0.5 * gusty
-    f.gust_add[:, sl] += rng.uniform(1.5, 4.0, n)[:, None] * gusty * np.exp(-np.clip(m - tp, 0, None) / 60.0)
+    f.gustiness[:, sl] *= 1.0 + 0.35 * gusty
+    f.gust_add[:, sl] += rng.uniform(1.0, 3.0, n)[:, None] * gusty * np.exp(-np.clip(m - tp, 0, None) / 60.0)
     rain_start = tp + rng.uniform(-10.0, 10.0, n)[:, None]
     rain_len = rng.uniform(15.0, 40.0, n)[:, None]
     inside = (m >= rain_start) & (m < rain_start + rain_len)

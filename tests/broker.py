@@ -4,6 +4,7 @@ binary at all) the embedded amqtt broker."""
 
 from __future__ import annotations
 
+import os
 import shutil
 import socket
 import subprocess
@@ -56,6 +57,8 @@ class Mosquitto:
             f"log_dest file {self.workdir}/mosquitto.log",
             *self.extra,
         ]
+        if os.geteuid() == 0:
+            lines.append("user root")  # as root mosquitto would switch to a user that cannot read our temp dir
         if not any(line.startswith(("allow_anonymous", "password_file")) for line in lines):
             lines.append("allow_anonymous true")
         self.conf.write_text("\n".join(lines) + "\n")

@@ -28,8 +28,12 @@ CANCELLED = "cancelled"
 STATES = (APPROACHING, IMMINENT, ARRIVED_STATE, CLEAR, CANCELLED)
 ACTIVE = (APPROACHING, IMMINENT, ARRIVED_STATE)
 
-ISSUE_LEAD_S = 90 * 60.0  # first alert when the ETA is this close ...
-ISSUE_MIN_STATIONS = 2  # ... and at least this many stations have seen the front (or it is imminent)
+# A first alert: when no station short of the site is still to report, and the ETA is within
+# ISSUE_LEAD_S of a fitted front (>= 3 stations), within ISSUE_LEAD_PRIOR_S of a front seen by
+# ISSUE_MIN_STATIONS (prior basis), or within IMMINENT_S of any.
+ISSUE_LEAD_S = 90 * 60.0
+ISSUE_LEAD_PRIOR_S = 45 * 60.0
+ISSUE_MIN_STATIONS = 2
 IMMINENT_S = 20 * 60.0
 IMMINENT_EXIT_S = 45 * 60.0
 CLEAR_AFTER_S = 45 * 60.0  # 'clear' this long after the passage at the site
@@ -198,9 +202,14 @@ class SiteAlerts:
             return st
         lead = fc.eta - now
         if st in (None, CLEAR, CANCELLED):
+            # A first alert waits until no station short of the site is still to report (a stall
+            # short of the site shows there first), and for the ETA to be close enough.
+            if fc.upstream_pending > 0:
+                return st
             if lead <= IMMINENT_S:
                 return IMMINENT
-            if lead <= ISSUE_LEAD_S and fc.stations >= ISSUE_MIN_STATIONS:
+            if lead <= ISSUE_LEAD_S and (fc.basis == "fit" or (fc.stations >= ISSUE_MIN_STATIONS
+                                                               and lead <= ISSUE_LEAD_PRIOR_S)):
                 return APPROACHING
             return st
         if st == APPROACHING and lead <= IMMINENT_S:
@@ -282,7 +291,8 @@ class SiteAlerts:
         else:
             reason = {"stalled": "the front has stalled short of it", "overdue": "it has not arrived as forecast",
                       "not_on_path": "it is no longer on the front's path",
-                      "expired": "no station has seen the front for hours"}.get(fc.reason or "", "forecast withdrawn")
+                      "expired": "no station has seen the front for hours",
+                      "after_day_end": "it would arrive only after the breeze usually fades"}.get(fc.reason or "", "forecast withdrawn")
             headline = f"Sea-breeze front no longer expected at {name}: {reason}"
         for e in exceeded:
             label = {"gust": "gusts", "temp_drop": "temperature drop", "wind_shift": "wind shift"}[e.quantity]

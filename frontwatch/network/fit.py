@@ -25,6 +25,15 @@ ONSET_SIGMA_S = 120.0
 # Stations whose positions span less than this fraction across their main axis are "on a line":
 # the heading is not determined by them alone and the prior is kept.
 MIN_SPREAD_RATIO = 0.15
+# A least-squares fit less certain than this (relative sd of the slowness, sd of the heading) is
+# combined with the prior instead (when one is given).
+MAX_REL_SLOWNESS_SD = 0.3
+MAX_HEADING_SD_DEG = 25.0
+# Acceleration: fitted from this many stations on, kept when significant (|c| >= CURV_T se) and
+# when the front's speed at its last station stays below MAX_SPEED_MS.
+CURV_MIN_STATIONS = 5
+CURV_T = 2.0
+MAX_SPEED_MS = 10.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -50,10 +59,28 @@ class FrontFit:
     n: int
     residual_rms_s: float
     used_prior: bool
+    # Optional acceleration term: t += curv * Q(q), q = u . (p - ref) the distance along the motion
+    # u, Q(q) = q^2 within the stations' span [q_min, q_max] and continued along its tangent beyond
+    # it (the front keeps the speed it had at the last station; no further speed-up is assumed).
+    # cov is then 4 x 4 over (t0, sx, sy, curv).
+    curv: float = 0.0
+    u: tuple[float, float] = (0.0, 1.0)
+    q_span: tuple[float, float] = (0.0, 0.0)
+
+    def _q2(self, q: float) -> float:
+        lo, hi = self.q_span
+        if q > hi:
+            return hi * hi + 2.0 * hi * (q - hi)
+        if q < lo:
+            return lo * lo + 2.0 * lo * (q - lo)
+        return q * q
 
     @property
     def speed_ms(self) -> float:
+        """Speed at the front's furthest station (constant-speed fit: the speed)."""
         s = math.hypot(self.sx, self.sy)
+        if self.curv:
+            s = self.sx * self.u[0] + self.sy * self.u[1] + 2.0 * self.curv * self.q_span[1]
         return 1.0 / s if s > 0 else math.inf
 
     @property
@@ -66,11 +93,16 @@ class FrontFit:
         dx = x - self.ref[0]
         dy = y - self.ref[1]
         t = self.t0 + self.sx * dx + self.sy * dy
-        g = (1.0, dx, dy)
+        g: tuple[float, ...] = (1.0, dx, dy)
+        if self.curv:
+            q2 = self._q2(self.u[0] * dx + self.u[1] * dy)
+            t += self.curv * q2
+            g = (1.0, dx, dy, q2)
         c = self.cov
         var = 0.0
-        for i in range(3):
-            for j in range(3):
+        k = len(g)
+        for i in range(k):
+            for j in range(k):
                 var += g[i] * c[i][j] * g[j]
         return t, math.sqrt(max(var, 0.0))
 
@@ -88,12 +120,26 @@ class FrontFit:
         if s2 == 0:
             return math.inf, 180.0
         s = math.sqrt(s2)
-        c = np.array(self.cov)[1:, 1:]
+        c = np.array(self.cov)[1:3, 1:3]
         g_speed = np.array([-sx / s**3, -sy / s**3])  # d(1/|s|)/ds
         g_head = np.array([sy / s2, -sx / s2])  # d atan2(sx, sy)/ds
         v_speed = float(g_speed @ c @ g_speed)
         v_head = float(g_head @ c @ g_head)
         return math.sqrt(max(v_speed, 0.0)), math.degrees(math.sqrt(max(v_head, 0.0)))
+
+
+def _well_determined(sx: float, sy: float, cov: np.ndarray) -> bool:
+    """True when the slowness is known to MAX_REL_SLOWNESS_SD and its direction to MAX_HEADING_SD_DEG."""
+    s2 = sx * sx + sy * sy
+    if s2 == 0:
+        return False
+    s = math.sqrt(s2)
+    c = cov[1:3, 1:3]
+    g_along = np.array([sx / s, sy / s])
+    g_head = np.array([sy / s2, -sx / s2])
+    rel = math.sqrt(max(float(g_along @ c @ g_along), 0.0)) / s
+    head = math.degrees(math.sqrt(max(float(g_head @ c @ g_head), 0.0)))
+    return rel <= MAX_REL_SLOWNESS_SD and head <= MAX_HEADING_SD_DEG
 
 
 def _spread_ratio(xy: np.ndarray) -> float:
@@ -111,8 +157,9 @@ def fit_front(
 ) -> FrontFit | None:
     """Fit arrival times `points` = [(x, y, t), ...] (m, m, epoch s).
 
-    Pure least squares when there are >= 3 stations spread in two dimensions; otherwise the prior
-    is needed (None is returned without one). The residual sd is floored at `onset_sigma_s`.
+    Pure least squares when there are >= 3 stations spread in two dimensions and the result is well
+    determined; otherwise the prior is combined with the data (None is returned without one). The
+    residual sd is floored at `onset_sigma_s`.
     """
     n = len(points)
     if n == 0:
@@ -134,7 +181,9 @@ def fit_front(
         rss = float(resid @ resid)
         sigma2 = max(rss / dof if dof > 0 else 0.0, onset_sigma_s**2)
         cov = sigma2 * np.linalg.inv(ata)
-    else:
+        if prior is not None and not _well_determined(float(beta[1]), float(beta[2]), cov):
+            use_prior = True  # e.g. stations the front reached almost together: lean on the prior
+    if use_prior:
         assert prior is not None
         # Prior mean and covariance of s in the (along, across) frame of the prior heading.
         h = math.radians(prior.heading_deg)
@@ -156,6 +205,10 @@ def fit_front(
         resid = b - a @ beta
         rss = float(resid @ resid)
     rms = math.sqrt(rss / n)
+    if not use_prior and n >= CURV_MIN_STATIONS:
+        curved = _fit_curved(arr, ref, tref, beta, onset_sigma_s)
+        if curved is not None:
+            return curved
     return FrontFit(
         t0=tref + float(beta[0]),
         sx=float(beta[1]),
@@ -165,4 +218,46 @@ def fit_front(
         n=n,
         residual_rms_s=rms,
         used_prior=use_prior,
+    )
+
+
+def _fit_curved(arr: np.ndarray, ref: np.ndarray, tref: float, beta: np.ndarray,
+                onset_sigma_s: float) -> FrontFit | None:
+    """The constant-speed fit plus an along-track quadratic term, or None if it is not warranted.
+
+    Fronts speed up through the day (Linacre & Geerts 1997: from under 3 to over 6 m/s), which a
+    constant-speed fit averages away; t = t0 + s . d + c q^2 along the first fit's direction of
+    motion catches it. Linear least squares again.
+    """
+    n = len(arr)
+    sx, sy = float(beta[1]), float(beta[2])
+    s = math.hypot(sx, sy)
+    if s == 0:
+        return None
+    u = np.array([sx / s, sy / s])
+    d = arr[:, :2] - ref
+    q = d @ u
+    a = np.column_stack([np.ones(n), d, q * q])
+    b = arr[:, 2] - tref
+    ata = a.T @ a
+    if np.linalg.cond(ata) > 1e15:
+        return None
+    bet = np.linalg.solve(ata, a.T @ b)
+    resid = b - a @ bet
+    rss = float(resid @ resid)
+    dof = n - 4
+    sigma2 = max(rss / dof if dof > 0 else 0.0, onset_sigma_s**2)
+    cov = sigma2 * np.linalg.inv(ata)
+    c = float(bet[3])
+    se_c = math.sqrt(max(cov[3, 3], 0.0))
+    if se_c == 0 or abs(c) < CURV_T * se_c:
+        return None
+    q_lo, q_hi = float(q.min()), float(q.max())
+    local = float(bet[1] * u[0] + bet[2] * u[1]) + 2.0 * c * q_hi
+    if local < 1.0 / MAX_SPEED_MS:
+        return None
+    return FrontFit(
+        t0=tref + float(bet[0]), sx=float(bet[1]), sy=float(bet[2]), ref=(float(ref[0]), float(ref[1])),
+        cov=tuple(tuple(float(v) for v in row) for row in cov), n=n, residual_rms_s=math.sqrt(rss / n),
+        used_prior=False, curv=c, u=(float(u[0]), float(u[1])), q_span=(q_lo, q_hi),
     )

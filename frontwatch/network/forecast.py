@@ -1,9 +1,10 @@
 """Site forecasts: when a tracked front reaches a site, with an interval, and what comes behind it.
 
-The ETA is the fitted front's arrival time at the site. Its interval is 90 % (1.645 sd) of the fit's
-own uncertainty plus a model error that grows with the lead time (real fronts speed up and slow
-down; a straight constant-speed front is only a first guess): MODEL_REL_ERR of the lead time
-(common practice, no source). Expected post-front conditions come from the most recent upstream
+The ETA is the fitted front's arrival time at the site, sped up as fronts do through the day (see
+accelerated_eta) unless the fit has measured the acceleration itself. Its interval is 90 %
+(1.645 sd) of the fit's own uncertainty, the assumed speed-up, and a model error that grows with the
+lead time (real fronts also slow down and bend): MODEL_REL_ERR of the lead time (common practice,
+no source). Expected post-front conditions come from the most recent upstream
 passages of the same front.
 """
 
@@ -21,6 +22,12 @@ Z90 = 1.645  # two-sided 90 % interval of a normal distribution
 MODEL_REL_ERR = 0.12
 MIN_HALF_WIDTH_S = 180.0
 UPSTREAM_N = 3  # passages used for the expected post-front conditions
+# Fronts speed up through the day: "from under 3 to over 6 m/s" (Linacre & Geerts 1997). Reading
+# that as a doubling over about five hours gives 0.2 per hour (the rate is from memory, not a
+# published figure); capped at 2.5 times. Used where the data do not show the acceleration yet
+# (fits without the fitted acceleration term).
+ACCEL_PER_H = 0.2
+ACCEL_MAX_FACTOR = 2.5
 
 # Site forecast statuses (docs/alerts.md).
 EXPECTED = "expected"
@@ -70,6 +77,9 @@ class SiteForecast:
     residual_rms_s: float | None
     expected: Expected
     reason: str | None = None
+    # Live stations the front should reach before the site that have not reported yet: alerts wait
+    # for them (a stall short of the site shows there first).
+    upstream_pending: int = 0
 
     @property
     def lead_s(self) -> float | None:
@@ -111,6 +121,7 @@ class SiteForecast:
             "front_speed_sd_ms": _r(self.speed_sd_ms, 2),
             "front_heading_sd_deg": _r(self.heading_sd_deg, 0),
             "residual_rms_s": _r(self.residual_rms_s, 0),
+            "upstream_pending": self.upstream_pending,
             "expected": self.expected.to_dict(),
         }
 
@@ -124,6 +135,27 @@ class SiteForecast:
         d = dict(d)
         d["expected"] = Expected(*d["expected"])
         return cls(**d)
+
+
+def accelerated_eta(t_ref: float, eta_const: float, accel_per_h: float = ACCEL_PER_H,
+                    max_factor: float = ACCEL_MAX_FACTOR) -> float:
+    """Arrival time of a front that speeds up, from the constant-speed arrival time.
+
+    The constant-speed fit gives the front's speed v at t_ref (the mean time of the passages it
+    used) and a travel time d = eta_const - t_ref at that speed. With speed v (1 + a tau), tau the
+    time since t_ref, the distance v d is covered when tau + a tau^2 / 2 = d, so
+    tau = (sqrt(1 + 2 a d) - 1) / a; the speed-up stops at max_factor times v. Before t_ref
+    (upstream of the passages) nothing changes.
+    """
+    d = eta_const - t_ref
+    a = accel_per_h / 3600.0
+    if d <= 0.0 or a <= 0.0:
+        return eta_const
+    tau_cap = (max_factor - 1.0) / a
+    d_cap = tau_cap + a * tau_cap * tau_cap / 2.0
+    if d > d_cap:  # past the cap: on at the capped speed
+        return t_ref + tau_cap + (d - d_cap) / max_factor
+    return t_ref + (math.sqrt(1.0 + 2.0 * a * d) - 1.0) / a
 
 
 def expected_conditions(front: Front) -> Expected:
@@ -148,12 +180,15 @@ def forecast_for_site(
     stall_progress: float | None,
     arrived_at: float | None,
     station_up: bool = True,
+    upstream_pending: int = 0,
+    day_end: float | None = None,
 ) -> SiteForecast:
     """The forecast for a site at (x, y) from `front` at data time `now`.
 
     `arrived_at` is the onset of the passage at the site's own station, if it has reported;
     `stall_progress` is where a stalled front is known to have stopped (None if still moving).
-    A site whose station is up and silent well past the ETA is 'not expected' (reason 'overdue').
+    A site whose station is up and silent well past the ETA is 'not expected' (reason 'overdue'), and
+    so is one the front would reach only after `day_end` (reason 'after_day_end').
     """
     f = front.fit
     assert f is not None
@@ -161,11 +196,12 @@ def forecast_for_site(
     common: dict[str, Any] = dict(
         site=site, issued_at=now, front=front.key, front_speed_ms=f.speed_ms, front_heading_deg=f.heading_deg,
         basis=front.basis, stations=len(front.arrivals), speed_sd_ms=sp_sd, heading_sd_deg=hd_sd,
-        residual_rms_s=f.residual_rms_s, expected=expected_conditions(front),
+        residual_rms_s=f.residual_rms_s, expected=expected_conditions(front), upstream_pending=upstream_pending,
     )
     if arrived_at is not None:
         return SiteForecast(status=ARRIVED, eta=arrived_at, eta_earliest=None, eta_latest=None, **common)
-    eta, sd = f.arrival(x, y)
+    eta_lin, sd = f.arrival(x, y)
+    eta = eta_lin if f.curv else accelerated_eta(f.t0, eta_lin)
     if stall_progress is not None and f.progress(x, y) >= stall_progress:
         return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
                             reason="stalled", **common)
@@ -176,7 +212,13 @@ def forecast_for_site(
     if station_up and now > eta + max(OVERDUE_MIN_S, OVERDUE_SIGMAS * sd):
         return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
                             reason="overdue", **common)
+    if day_end is not None and eta > day_end:
+        # Breeze fronts are a daytime phenomenon; one due after the local day's end (the detector's
+        # day_end_h) would fade first and could not be confirmed (common practice).
+        return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
+                            reason="after_day_end", **common)
     lead = max(eta - now, 0.0)
-    half = max(Z90 * math.sqrt(sd * sd + (MODEL_REL_ERR * lead) ** 2), MIN_HALF_WIDTH_S)
+    acc = eta_lin - eta  # the speed-up assumed is itself uncertain: count it as one sd
+    half = max(Z90 * math.sqrt(sd * sd + (MODEL_REL_ERR * lead) ** 2 + acc * acc), MIN_HALF_WIDTH_S)
     return SiteForecast(status=EXPECTED, eta=eta, eta_earliest=max(eta - half, now), eta_latest=eta + half,
                         **common)

@@ -27,6 +27,7 @@ JOIN_SIGMAS = 3.0
 LINK_M = 60_000.0  # a joining station is at most this far from one already in the front
 OVERDUE_MIN_S = 15 * 60.0  # a station is overdue this long (or 2.5 sd) after its predicted time
 OVERDUE_SIGMAS = 2.5
+STALL_MIN_OVERDUE = 2  # overdue stations needed to call a stall (fewer if fewer are ahead)
 STATION_UP_S = 15 * 60.0  # a station counts as reporting if its data are this fresh
 FRONT_TTL_S = 4 * 3600.0  # a front with no new passage for this long is closed
 MAX_FRONTS = 12
@@ -174,8 +175,15 @@ class FrontTracker:
         dx = self._x - f.ref[0]
         dy = self._y - f.ref[1]
         t = f.t0 + f.sx * dx + f.sy * dy
-        c = np.array(f.cov)
-        var = c[0, 0] + 2 * c[0, 1] * dx + 2 * c[0, 2] * dy + c[1, 1] * dx * dx + 2 * c[1, 2] * dx * dy + c[2, 2] * dy * dy
+        cols = [np.ones_like(dx), dx, dy]
+        if f.curv:
+            q = f.u[0] * dx + f.u[1] * dy
+            lo, hi = f.q_span
+            q2 = np.where(q > hi, hi * hi + 2 * hi * (q - hi), np.where(q < lo, lo * lo + 2 * lo * (q - lo), q * q))
+            t = t + f.curv * q2
+            cols.append(q2)
+        g = np.column_stack(cols)
+        var = np.einsum("ij,jk,ik->i", g, np.array(f.cov), g)
         sd = np.sqrt(np.maximum(var, 0.0))
         s = math.hypot(f.sx, f.sy)
         prog = (f.sx * dx + f.sy * dy) / s if s > 0 else np.zeros_like(dx)
@@ -198,13 +206,14 @@ class FrontTracker:
         for fr in self.fronts:
             if fr.stalled_at is not None or not fr.deadlines or now <= fr.deadlines[0][0]:
                 continue
-            overdue = [sid for dl, sid in fr.deadlines
-                       if dl < now and now - last_seen.get(sid, -math.inf) <= STATION_UP_S]
-            if overdue:
+            live = [(dl, sid) for dl, sid in fr.deadlines if now - last_seen.get(sid, -math.inf) <= STATION_UP_S]
+            overdue = [sid for dl, sid in live if dl < now]
+            # One silent station may be a missed detection: with more stations ahead, wait for two.
+            if overdue and len(overdue) >= min(STALL_MIN_OVERDUE, len(live)):
                 fr.stalled_at = now
                 fr.overdue = sorted(overdue)
                 changed.append(fr)
-            else:  # only silent stations are past due: drop them, wait for the next deadline
+            elif not overdue:  # only silent stations are past due: drop them, wait for the next deadline
                 fr.deadlines = [d for d in fr.deadlines if d[0] >= now]
         return changed
 

@@ -20,12 +20,14 @@ from ..calc.wind import wind_components, wind_direction
 from ..config import NetworkConfig, SiteConfig
 from ..events import PassageEvent
 from ..obs import Observation
+from ..timeutil import LocalClock
 from .forecast import EXPECTED, NOT_EXPECTED, SiteForecast, forecast_for_site
 from .race import CourseMonitor, CourseReport
 from .track import FRONT_TTL_S, STATION_UP_S, Front, FrontTracker
 
 SITE_STATION_MAX_M = 5000.0  # the nearest station stands for a site only this close
-ARRIVAL_MATCH_S = 30 * 60.0  # a passage at the site's station this long before a front's first onset still counts
+ARRIVAL_MATCH_S = 30 * 60.0
+PENDING_CROSS_M = 20_000.0  # stations this far across the site's track count as checkpoints before it  # a passage at the site's station this long before a front's first onset still counts
 DIR_EMA_ALPHA = 0.1  # weight of a new record in the site station's running wind (about 10 records)
 
 Output = SiteForecast | AlertMessage | CourseReport
@@ -46,6 +48,7 @@ class _Site:
         self.alerts = alerts
         self.front: str | None = None
         self.last_fc: SiteForecast | None = None
+        self.arrived: tuple[str, float] | None = None  # (front, time) once the front has arrived here
 
 
 def nearest_station(config: NetworkConfig, lat: float, lon: float) -> tuple[str, float]:
@@ -68,6 +71,8 @@ class SiteWatch:
             pos[s.id] = (x, y, s.onshore_from_deg)
         self.tracker = FrontTracker(pos)
         tz = config.tz
+        self.clock = LocalClock(tz)
+        self.day_end_h = config.detector.day_end_h
         self.sites: list[_Site] = []
         self.monitors: dict[str, CourseMonitor] = {}  # site id -> monitor
         self._watched: dict[str, list[CourseMonitor]] = {}  # station -> monitors it feeds
@@ -133,6 +138,8 @@ class SiteWatch:
         return out
 
     def _arrived_at(self, site: _Site, fr: Front, now: float) -> float | None:
+        if site.arrived is not None and site.arrived[0] == fr.key:
+            return site.arrived[1]  # once arrived, the time stays (later refits do not move it)
         if site.station is None:
             # No station of its own: estimated from the track once a station at least as far along
             # has reported, or once the ETA has passed with the front still moving.
@@ -154,10 +161,37 @@ class SiteWatch:
             return seen
         return None
 
+    def _pending(self, site: _Site, fr: Front, now: float) -> int:
+        """Live stations not yet reached that lie between the front's reach and the site, near its track."""
+        f = fr.fit
+        if f is None or not fr.deadlines:
+            return 0
+        p_site = f.progress(site.x, site.y)
+        s = math.hypot(f.sx, f.sy)
+        ux, uy = (f.sx / s, f.sy / s) if s > 0 else (0.0, 0.0)
+        n = 0
+        for _, sid in fr.deadlines:
+            if sid == site.station or now - self.last_seen.get(sid, -math.inf) > STATION_UP_S:
+                continue
+            x, y, _ = self.tracker.positions[sid]
+            if f.progress(x, y) >= p_site:
+                continue
+            cross = abs((x - site.x) * uy - (y - site.y) * ux)
+            if cross <= PENDING_CROSS_M:
+                n += 1
+        return n
+
     def _forecast(self, site: _Site, fr: Front, now: float) -> SiteForecast:
         up = site.station is not None and now - self.last_seen.get(site.station, -math.inf) <= STATION_UP_S
-        return forecast_for_site(site.cfg.id, site.x, site.y, fr, now, self.tracker.stall_progress(fr),
-                                 self._arrived_at(site, fr, now), station_up=up)
+        arrived = self._arrived_at(site, fr, now)
+        first = fr.first_onset
+        day_end = first + (self.day_end_h - self.clock.hour(first)) * 3600.0
+        fc = forecast_for_site(site.cfg.id, site.x, site.y, fr, now, self.tracker.stall_progress(fr), arrived,
+                               station_up=up, upstream_pending=0 if arrived is not None else self._pending(site, fr, now),
+                               day_end=day_end)
+        if arrived is not None and site.front == fr.key:
+            site.arrived = (fr.key, arrived)
+        return fc
 
     def _evaluate(self, site: _Site, now: float, changed: Front | None, emit_forecast: bool) -> list[Output]:
         """Re-forecast one site. `changed` is a front that just changed (it may take the site over)."""
@@ -244,6 +278,7 @@ class SiteWatch:
             "ema": {k: list(v) for k, v in self._ema.items()},
             "fronts": self.tracker.snapshot(),
             "sites": {s.cfg.id: {"front": s.front, "last_fc": None if s.last_fc is None else s.last_fc.to_state(),
+                                 "arrived": None if s.arrived is None else list(s.arrived),
                                  "alerts": s.alerts.snapshot()} for s in self.sites},
             "monitors": {k: m.snapshot() for k, m in self.monitors.items()},
         }
@@ -262,6 +297,7 @@ class SiteWatch:
                 continue
             s.front = d["front"]
             s.last_fc = None if d["last_fc"] is None else SiteForecast.from_state(d["last_fc"])
+            s.arrived = None if d["arrived"] is None else (str(d["arrived"][0]), float(d["arrived"][1]))
             s.alerts.restore(d["alerts"])
         for k, m in self.monitors.items():
             if k in snap["monitors"]:

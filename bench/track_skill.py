@@ -1,0 +1,202 @@
+"""Front-tracking, ETA and alert skill on generated scenarios with known front motion (issue 4).
+
+For each seed: generate a scenario (frontwatch.sim), run the whole core on its observations
+(QC, station detectors, SiteWatch) and compare what came out against the scenario's true fronts
+(fronts.jsonl: heading, speed track, station and site arrival times). Prints, per seed and over
+all seeds:
+- front speed and heading error at the first forecast with >= 3 stations (basis 'fit'), against the
+  true mean speed over the span those stations saw (and the true speed at that moment);
+- ETA error of every forecast issued before the true arrival, for sites >= 20 min downstream of the
+  first station that detected the front; the first forecast's lead time;
+- alerts for sites the front never reached (should be none) and alert state changes per front
+  and site, with reversals (imminent -> approaching) counted as flaps.
+
+    .venv/bin/python bench/track_skill.py --seeds 11 12 13 14 15 16 17 18 --days 4
+
+The alert and tracking constants were set on seeds 1-5; report figures on other seeds.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import sys
+import time
+from collections import defaultdict
+from pathlib import Path
+from typing import Any
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+from frontwatch.config import parse_network  # noqa: E402
+from frontwatch.replay import decode_frame, run_decoded  # noqa: E402
+from frontwatch.sim import ScenarioSpec, generate  # noqa: E402
+from frontwatch.timeutil import parse_time  # noqa: E402
+
+
+def _true_speed_between(front: dict[str, Any], t1: float, t2: float) -> float:
+    """Mean true speed (m/s) of the front between two times, from its track."""
+    tr = [(parse_time(p["time"]), p["distance_km"]) for p in front["track"]]
+
+    def dist(t: float) -> float:
+        if t <= tr[0][0]:
+            return tr[0][1]
+        for (ta, da), (tb, db) in zip(tr, tr[1:], strict=False):
+            if ta <= t <= tb:
+                return da + (db - da) * (t - ta) / (tb - ta) if tb > ta else da
+        return tr[-1][1]
+
+    return (dist(t2) - dist(t1)) * 1000.0 / (t2 - t1) if t2 > t1 else float("nan")
+
+
+def _true_speed_at(front: dict[str, Any], t: float) -> float:
+    best = min(front["track"], key=lambda p: abs(parse_time(p["time"]) - t))
+    return float(best["speed_ms"])
+
+
+def _match_front(fronts: list[dict[str, Any]], t: float) -> dict[str, Any] | None:
+    for f in fronts:
+        if parse_time(f["origin_time"]) - 3600 <= t <= parse_time(f["dissolved_time"]) + 3 * 3600:
+            return f
+    return None
+
+
+def run_seed(seed: int, days: int, stations: int) -> dict[str, Any]:
+    sc = generate(ScenarioSpec(seed=seed, days=days, stations=stations))
+    cfg = parse_network(sc.network, f"sim-seed-{seed}")
+    dec = decode_frame(sc.observations, cfg, f"sim-seed-{seed}")
+    t0 = time.perf_counter()
+    res = run_decoded(dec, cfg)
+    elapsed = time.perf_counter() - t0
+    outs = [o.to_dict() for o in res.outputs]
+    fcs = [o for o in outs if o.get("type") == "forecast"]
+    alerts = [o for o in outs if o.get("type") == "alert"]
+    fronts = sc.fronts
+    # Our front key -> true front (by the time of the first passage).
+    ours: dict[str, dict[str, Any] | None] = {}
+    for o in fcs:
+        k = o["front"]
+        if k not in ours:
+            ours[k] = _match_front(fronts, parse_time(o["issued_at"]))
+    speed_err = []
+    head_err = []
+    seen_front = set()
+    for o in fcs:
+        f = ours.get(o["front"])
+        if f is None or o["basis"] != "fit" or o["stations"] < 3 or id(f) in seen_front:
+            continue
+        seen_front.add(id(f))
+        arr = sorted(parse_time(t) for t in f["station_arrivals"].values() if t)
+        t_issue = parse_time(o["issued_at"])
+        seen = [t for t in arr if t <= t_issue]
+        v_mean = _true_speed_between(f, seen[0], seen[-1]) if len(seen) >= 2 else float("nan")
+        v_now = _true_speed_at(f, t_issue)
+        dh = (o["front_heading_deg"] - f["heading_deg"] + 180.0) % 360.0 - 180.0
+        speed_err.append((o["front_speed_ms"] / v_mean - 1.0, o["front_speed_ms"] / v_now - 1.0))
+        head_err.append(dh)
+    # ETA errors per site and true front.
+    eta_err: list[float] = []
+    eta_by: dict[str, list[float]] = defaultdict(list)
+    late_err: dict[tuple[str, str], float] = {}  # the last forecast issued >= 15 min before arrival
+    inside: list[bool] = []
+    first_lead: list[float] = []
+    never_alerts = 0
+    never_cases = 0
+    for f in fronts:
+        first_st = min((parse_time(t) for t in f["station_arrivals"].values() if t), default=None)
+        keys = [k for k, v in ours.items() if v is f]
+        for site, t_true in f["site_arrivals"].items():
+            site_alerts = [a for a in alerts if a["site"] == site and a["front"] in keys
+                           and a["state"] in ("approaching", "imminent", "arrived")]
+            if t_true is None:
+                never_cases += 1
+                never_alerts += bool(site_alerts)
+                continue
+            tt = parse_time(t_true)
+            if first_st is None or tt - first_st < 20 * 60:
+                continue
+            pre = [o for o in fcs if o["site"] == site and o["front"] in keys and o["status"] == "expected"
+                   and parse_time(o["issued_at"]) < tt]
+            for o in pre:
+                eta_err.append((parse_time(o["eta"]) - tt) / 60.0)
+                eta_by[o["basis"]].append((parse_time(o["eta"]) - tt) / 60.0)
+                lead = (tt - parse_time(o["issued_at"])) / 60.0
+                if lead >= 15:
+                    late_err[(o["site"], f["id"])] = (parse_time(o["eta"]) - tt) / 60.0
+                inside.append(parse_time(o["eta_earliest"]) <= tt <= parse_time(o["eta_latest"]))
+            if pre:
+                first_lead.append((tt - parse_time(pre[0]["issued_at"])) / 60.0)
+            else:
+                first_lead.append(0.0)
+    # State changes per (front, site).
+    changes: dict[tuple[str, str], list[str]] = defaultdict(list)
+    for a in alerts:
+        seq = changes[(a["id"], a["site"])]
+        if not seq or seq[-1] != a["state"]:
+            seq.append(a["state"])
+    flaps = sum(1 for seq in changes.values() for x, y in zip(seq, seq[1:], strict=False)
+                if (x, y) == ("imminent", "approaching"))
+    max_changes = max((len(s) - 1 for s in changes.values()), default=0)
+    return {"seed": seed, "records": res.records, "seconds": elapsed, "fronts": len(fronts), "tracked": len(ours),
+            "speed_err": speed_err, "head_err": head_err, "eta_err": eta_err, "first_lead": first_lead,
+            "eta_fit": eta_by["fit"], "eta_prior": eta_by["prior"], "eta_last15": list(late_err.values()),
+            "inside": inside,
+            "never_cases": never_cases, "never_alerts": never_alerts, "flaps": flaps, "max_changes": max_changes,
+            "alerts": len(alerts), "forecasts": len(fcs), "paths": [" > ".join(s) for s in changes.values()]}
+
+
+def _med(xs: list[float]) -> float:
+    return statistics.median(xs) if xs else float("nan")
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--seeds", type=int, nargs="+", default=[11, 12, 13, 14, 15, 16, 17, 18])
+    ap.add_argument("--days", type=int, default=4)
+    ap.add_argument("--stations", type=int, default=9)
+    ap.add_argument("--paths", action="store_true", help="print each alert's state path")
+    a = ap.parse_args()
+    allr = []
+    print("seed fronts tracked | speed err (vs mean, vs now) | heading err | ETA |err| med, n | "
+          "first lead min | never-reached alerts | flaps max-changes | rec/s")
+    for s in a.seeds:
+        r = run_seed(s, a.days, a.stations)
+        allr.append(r)
+        se = ", ".join(f"{x:+.0%}/{y:+.0%}" for x, y in r["speed_err"])
+        he = ", ".join(f"{x:+.0f}" for x in r["head_err"])
+        ae = [abs(x) for x in r["eta_err"]]
+        print(f"{s:4d} {r['fronts']:6d} {r['tracked']:7d} | {se or '-'} | {he or '-'} | "
+              f"{_med(ae):.1f}, {len(ae)} | {_med(r['first_lead']):.0f} (min {min(r['first_lead'], default=0):.0f}) | "
+              f"{r['never_alerts']}/{r['never_cases']} | {r['flaps']} {r['max_changes']} | "
+              f"{r['records'] / r['seconds']:.0f}")
+        if a.paths:
+            for p in r["paths"]:
+                print("      ", p)
+    se_mean = [abs(x) for r in allr for x, _ in r["speed_err"]]
+    se_now = [abs(y) for r in allr for _, y in r["speed_err"]]
+    he = [abs(x) for r in allr for x in r["head_err"]]
+    ae = [abs(x) for r in allr for x in r["eta_err"]]
+    leads = [x for r in allr for x in r["first_lead"]]
+    print("\nall seeds:")
+    print(f"  fronts with a 3-station fit: {len(he)}; |speed err| vs true mean speed: median {_med(se_mean):.0%}, "
+          f"max {max(se_mean, default=float('nan')):.0%}, within 20 %: {sum(x <= 0.2 for x in se_mean)}/{len(se_mean)}"
+          f"; vs speed at that moment: median {_med(se_now):.0%}")
+    print(f"  |heading err|: median {_med(he):.1f} deg, max {max(he, default=float('nan')):.1f} deg, within 20 deg: "
+          f"{sum(x <= 20 for x in he)}/{len(he)}")
+    print(f"  ETA |err| (sites >= 20 min downstream, every forecast before arrival): median {_med(ae):.1f} min, "
+          f"n={len(ae)}; first forecast lead: median {_med(leads):.0f} min, min {min(leads, default=0):.0f} min, "
+          f">= 15 min: {sum(x >= 15 for x in leads)}/{len(leads)}")
+    fit = [abs(x) for r in allr for x in r["eta_fit"]]
+    pri = [abs(x) for r in allr for x in r["eta_prior"]]
+    l15 = [abs(x) for r in allr for x in r["eta_last15"]]
+    ins = [x for r in allr for x in r["inside"]]
+    print(f"    by basis: fit (>= 3 stations) median {_med(fit):.1f} min (n={len(fit)}), prior median {_med(pri):.1f} min "
+          f"(n={len(pri)}); last forecast >= 15 min before arrival: median {_med(l15):.1f} min (n={len(l15)}); "
+          f"true arrival inside the interval: {sum(ins)}/{len(ins)}")
+    print(f"  alerts for sites never reached: {sum(r['never_alerts'] for r in allr)} of "
+          f"{sum(r['never_cases'] for r in allr)} cases; flaps (imminent -> approaching): "
+          f"{sum(r['flaps'] for r in allr)}; most state changes of one alert: {max(r['max_changes'] for r in allr)}")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,104 @@
+"""Tracking maths: the moving-front least-squares fit and the density-current prior.
+
+Checks against a hand-worked example, numpy's reference least-squares solver, and the DOMAIN.md
+check value of the density-current speed (sqrt(g'h) = 7.00 m/s for 3 K, 300 K, 500 m).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from frontwatch.network.fit import ONSET_SIGMA_S, Prior, fit_front
+from frontwatch.network.prior import DEPTH_M, FROUDE_K, PassageFacts, density_prior
+
+
+def test_hand_worked_right_angle_three_stations() -> None:
+    """Hand-worked example: stations A (0, 0), B (10 km east), C (10 km north) on a right angle see
+    the front at 0 s, 1200 s and 1600 s. Then s_x = 1200 s / 10 km = 0.12 s/m and s_y = 1600 s / 10 km
+    = 0.16 s/m; |s| = 0.2 s/m (a 3-4-5 triangle), so the speed is 5 m/s, and the front moves toward
+    atan2(0.12, 0.16) = 36.87 deg (north-east). A fourth point D (10 km, 10 km) is due at
+    t0 + 0.12 * 10000 + 0.16 * 10000 = 2800 s."""
+    f = fit_front([(0.0, 0.0, 0.0), (10_000.0, 0.0, 1200.0), (0.0, 10_000.0, 1600.0)])
+    assert f is not None and not f.used_prior
+    assert f.sx == pytest.approx(0.12, abs=1e-12)
+    assert f.sy == pytest.approx(0.16, abs=1e-12)
+    assert f.speed_ms == pytest.approx(5.0, rel=1e-12)
+    assert f.heading_deg == pytest.approx(math.degrees(math.atan2(3, 4)), abs=1e-9)
+    assert f.heading_deg == pytest.approx(36.8699, abs=1e-4)
+    t, sd = f.arrival(10_000.0, 10_000.0)
+    assert t == pytest.approx(2800.0, abs=1e-6)
+    assert f.residual_rms_s == pytest.approx(0.0, abs=1e-6)
+    # Exactly determined: the uncertainty comes from the onset-time floor, so it is positive.
+    assert sd > 0
+    # Progress along the motion of D from A: (0.12 + 0.16) * 10000 / 0.2 = 14 km.
+    assert f.progress(10_000.0, 10_000.0) - f.progress(0.0, 0.0) == pytest.approx(14_000.0)
+
+
+def test_overdetermined_fit_matches_numpy_lstsq() -> None:
+    rng = np.random.default_rng(4)
+    xy = rng.uniform(-20_000, 20_000, size=(7, 2))
+    true_s = np.array([-0.25, 0.1])
+    t = 5000.0 + xy @ true_s + rng.normal(0, 90, size=7)
+    f = fit_front([(float(x), float(y), float(tt)) for (x, y), tt in zip(xy, t, strict=True)])
+    assert f is not None
+    a = np.column_stack([np.ones(7), xy])
+    beta, *_ = np.linalg.lstsq(a, t, rcond=None)  # reference solver (numpy)
+    assert f.sx == pytest.approx(beta[1], rel=1e-9)
+    assert f.sy == pytest.approx(beta[2], rel=1e-9)
+    assert f.arrival(0.0, 0.0)[0] == pytest.approx(beta[0], abs=1e-6)
+    resid = t - a @ beta
+    assert f.residual_rms_s == pytest.approx(math.sqrt(float(resid @ resid) / 7), rel=1e-9)
+    # Covariance: sigma^2 (A^T A)^-1 with sigma^2 = RSS/(n-3) floored at the onset sd.
+    sigma2 = max(float(resid @ resid) / 4, ONSET_SIGMA_S**2)
+    ac = np.column_stack([np.ones(7), xy - xy.mean(axis=0)])
+    cov = sigma2 * np.linalg.inv(ac.T @ ac)
+    assert np.allclose(np.array(f.cov)[1:, 1:], cov[1:, 1:], rtol=1e-9)
+
+
+def test_speed_heading_sd_grows_with_timing_noise() -> None:
+    pts = [(0.0, 0.0, 0.0), (10_000.0, 0.0, 1200.0), (0.0, 10_000.0, 1600.0), (10_000.0, 10_000.0, 2800.0)]
+    base = fit_front(pts)
+    noisy = fit_front([(x, y, t + d) for (x, y, t), d in zip(pts, (300, -300, -300, 300), strict=True)])
+    assert base is not None and noisy is not None
+    assert noisy.speed_heading_sd()[0] > base.speed_heading_sd()[0] > 0
+
+
+def test_too_few_or_collinear_stations_need_the_prior() -> None:
+    pts = [(0.0, 0.0, 0.0), (5000.0, 0.0, 1000.0)]
+    assert fit_front(pts) is None
+    line = [(0.0, 0.0, 0.0), (5000.0, 0.0, 1000.0), (10_000.0, 10.0, 2000.0)]
+    assert fit_front(line) is None
+    f = fit_front(line, Prior(speed_ms=4.0, heading_deg=90.0))
+    assert f is not None and f.used_prior
+    # Along the line the data win over the prior (5 m/s observed against 4 m/s assumed).
+    assert f.speed_ms == pytest.approx(5.0, rel=0.02)
+    assert f.heading_deg == pytest.approx(90.0, abs=1.0)
+
+
+def test_single_station_prior_prediction() -> None:
+    """One station: the front is assumed to move at the prior speed along the prior heading."""
+    f = fit_front([(0.0, 0.0, 1000.0)], Prior(speed_ms=4.0, heading_deg=270.0))
+    assert f is not None and f.used_prior
+    t, sd = f.arrival(-8000.0, 0.0)  # 8 km west: 2000 s later at 4 m/s
+    assert t == pytest.approx(3000.0, abs=1e-6)
+    assert sd == pytest.approx(math.hypot(ONSET_SIGMA_S, 0.5 * 2000.0), rel=1e-3)  # wide: 50 % of the lead
+
+
+def test_density_prior_matches_domain_check_value() -> None:
+    """DOMAIN.md: delta theta 3 K, theta 300 K, h 500 m -> sqrt(g'h) = 7.00 m/s; the prior uses
+    U = k sqrt(g'h) with k = FROUDE_K and then subtracts 0.6 x the opposing wind (Simpson & Britter 1980)."""
+    assert DEPTH_M == 500.0
+    facts = PassageFacts(shore_normal_to_deg=270.0, temp_change_c=-3.0, temp_after_c=300.0 - 273.15,
+                         dir_before_deg=None, speed_before_ms=None)
+    p = density_prior([facts])
+    assert p.speed_ms == pytest.approx(FROUDE_K * 7.00, abs=0.01)
+    assert p.heading_deg == pytest.approx(270.0)
+    # A 2 m/s wind from the west opposes a front moving west: 0.6 x 2 = 1.2 m/s slower.
+    opp = PassageFacts(270.0, -3.0, 300.0 - 273.15, dir_before_deg=270.0, speed_before_ms=2.0)
+    assert density_prior([opp]).speed_ms == pytest.approx(FROUDE_K * 7.00 - 1.2, abs=0.01)
+    # A following wind (from the east) is not applied (the paper's result is for opposing flow).
+    fol = PassageFacts(270.0, -3.0, 300.0 - 273.15, dir_before_deg=90.0, speed_before_ms=2.0)
+    assert density_prior([fol]).speed_ms == pytest.approx(FROUDE_K * 7.00, abs=0.01)

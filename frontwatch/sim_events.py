@@ -96,6 +96,12 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
     site_d = np.array([s.shore_km for s in setting.sites])
     site_a = np.array([s.along_km for s in setting.sites])
     site_dist = front_distance(setting, site_d, site_a, dev)
+    # The line is not straight: lobes and clefts of up to ~1 km along it (from memory), so arrival
+    # order follows the distance along the heading only to within the lobe size.
+    lobe_km, lobe_len = float(rng.uniform(0.0, 1.0)), float(rng.uniform(8.0, 20.0))
+    phase = float(rng.uniform(0.0, 2 * math.pi))
+    dist = np.maximum(0.0, dist + lobe_km * np.sin(2 * math.pi * a_st / lobe_len + phase))
+    site_dist = np.maximum(0.0, site_dist + lobe_km * np.sin(2 * math.pi * site_a / lobe_len + phase))
 
     # Opposing component of the large-scale wind (an offshore wind blows FROM the inland bearing).
     syn_dir = math.radians((plan.syn_from_deg + plan.end_from_deg) / 2.0 - B)
@@ -200,6 +206,9 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
         "stall_km": None if stall_km is None else round(stall_km, 3), "stall_time": t_stall,
         "dissolved_time": iso(clock.start_epoch + m_dissolve * 60.0),
         "inland_decay_km": round(float(L), 2),
+        "lobes": {"amplitude_km": round(lobe_km, 3), "wavelength_km": round(lobe_len, 3),
+                  "note": "station_distance_km includes them; a straight line along heading_deg is off by "
+                          "up to amplitude_km"},
         "station_distance_km": {p.id: round(float(x), 3) for p, x in zip(setting.stations, dist, strict=True)},
         "station_arrivals": {p.id: (None if np.isnan(x) else iso(clock.start_epoch + x * 60.0))
                              for p, x in zip(setting.stations, arr, strict=True)},

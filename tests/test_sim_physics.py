@@ -184,23 +184,30 @@ def test_arrival_order_follows_distance_along_the_heading(north):
     sc, _ = north
     geod = Geod(ellps="WGS84")
     pos = {s["id"]: (s["lat"], s["lon"]) for s in sc.network["stations"]}
+    checked = 0
     for front in sc.fronts:
         o = front["origin"]
         labs = [lab for lab in sc.labels if lab.get("front") == front["id"]]
-        assert len(labs) >= 2
+        checked += len(labs) >= 3
         proj = []
         for lab in labs:
             lat, lon = pos[lab["station"]]
             az, _, dist = geod.inv(o["lon"], o["lat"], lon, lat)
             proj.append(dist / 1000.0 * math.cos(math.radians(az - front["heading_deg"])))
-        times = [parse_time(lab["time"]) for lab in labs]
-        order = np.argsort(proj)
-        assert np.all(np.diff(np.array(times)[order]) >= 0), front["id"]
+        times = np.array([parse_time(lab["time"]) for lab in labs])
+        proj = np.array(proj)
+        lobe = front["lobes"]["amplitude_km"]
+        # A station clearly farther along the heading (beyond the lobes of the line) is reached later.
+        for i in range(len(labs)):
+            for j in range(len(labs)):
+                if proj[j] - proj[i] > 2 * lobe + 0.2:
+                    assert times[j] > times[i], (front["id"], labs[i]["station"], labs[j]["station"])
         # ... and the track (distance travelled by time) puts the front at each station when labelled.
         tt = [parse_time(p["time"]) for p in front["track"]]
         dd = [p["distance_km"] for p in front["track"]]
         for x, t in zip(proj, times, strict=True):
-            assert abs(np.interp(t, tt, dd) - x) < 0.5
+            assert abs(np.interp(t, tt, dd) - x) < lobe + 0.3
+    assert checked >= 2
 
 
 def test_front_speed_is_a_density_current_slowed_by_opposing_wind(north):

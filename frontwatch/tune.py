@@ -317,6 +317,7 @@ class SearchSettings(BaseModel):
     holdout_fraction: float = Field(0.3, ge=0.0, lt=1.0)
     workers: int = Field(0, ge=0)  # 0: all cores
     eta: int = Field(3, ge=2, le=10)  # halving: keep 1/eta of the settings at each rung
+    min_rung_labels: int = Field(20, ge=1)  # halving: target-kind labels the smallest rung should hold
 
 
 class ObjectiveSettings(BaseModel):
@@ -489,6 +490,12 @@ def _worker_run(changes: dict[str, Any], days: list[int] | None) -> list[Passage
     return run_detector(_W["store"], cfg, days)
 
 
+def _label_predicate(target: str) -> Callable[[Label], bool]:
+    if target == "any":
+        return lambda lb: lb.is_passage
+    return lambda lb: lb.kind == target
+
+
 def split_by_day(items: Iterable[Any], when: Callable[[Any], float], tz: tzinfo | None,
                  days: set[int]) -> list[Any]:
     xs = list(items)
@@ -567,6 +574,11 @@ def tune(store: ObsStore, config: NetworkConfig, labels: Sequence[Label], space:
     if space.search.method == "halving":
         eta = space.search.eta
         n_rungs = max(1, int(math.floor(math.log(max(len(trials), 1), eta))) + 1)
+        # The smallest rung must still hold enough labels of the target kind to rank settings by.
+        pos_l = _label_predicate(obj.target)
+        n_pos = sum(1 for lb in lab_train if pos_l(lb))
+        while n_rungs > 1 and n_pos * eta ** -(n_rungs - 1) < space.search.min_rung_labels:
+            n_rungs -= 1
         order = train_days[:]
         random.Random(space.search.seed + 7).shuffle(order)
         rungs_days = []
@@ -580,10 +592,12 @@ def tune(store: ObsStore, config: NetworkConfig, labels: Sequence[Label], space:
     def work(days: list[int] | None) -> float:
         return float(sum(sizes[d] for d in (all_days if days is None else days)))
 
-    total = 0.0
-    n = len(trials)
-    for r, days in enumerate(rungs_days):
-        total += work(days) * max(1, math.ceil(n / eta ** r)) if space.search.method == "halving" else work(days) * n
+    # Work planned, in record-days; for halving an upper bound (the current settings may be carried
+    # along), and the bar is closed at 100 % when the search ends.
+    total, count = 0.0, len(trials)
+    for days in rungs_days:
+        total += work(days) * count
+        count = max(1, math.ceil(count / eta)) + 1
     done = [0.0]
 
     def tick(w: float) -> None:

@@ -169,7 +169,8 @@ def test_tune_finds_the_day_window_and_writes_toml(scenario: tuple[Path, Path, P
     obs, net, lab = scenario
     cfg = load_network(net).with_detector(day_start_h=14.0)  # start from settings that miss midday fronts
     store, _, _ = cached_store([obs], cfg, None)
-    sp = parse_space({"search": {"method": method, "samples": 9, "holdout_fraction": 0.34, "seed": 2},
+    sp = parse_space({"search": {"method": method, "samples": 9, "holdout_fraction": 0.34, "seed": 2,
+                                 "min_rung_labels": 1},
                       "params": {"day_start_h": {"values": [8.0, 10.0, 14.0]}, "min_score": {"values": [4.0, 5.0, 6.0]}}})
     res = tune(store, cfg, read_labels(lab), sp, workers=workers)
     assert not set(res.train_days) & set(res.test_days) and len(res.test_days) == 2
@@ -183,6 +184,10 @@ def test_tune_finds_the_day_window_and_writes_toml(scenario: tuple[Path, Path, P
     assert back == res.best.settings
     if method == "halving":
         assert any(t.test is None for t in res.trials)  # some settings stopped at an early rung
+        # too few labels for a small rung (6 train labels < 20): one rung, every setting on all days
+        sp20 = sp.model_copy(update={"search": sp.search.model_copy(update={"min_rung_labels": 20})})
+        res20 = tune(store, cfg, read_labels(lab), sp20, workers=1)
+        assert all(t.test is not None for t in res20.trials)
 
 
 def test_cli_label_score_tune_end_to_end(scenario: tuple[Path, Path, Path], tmp_path: Path) -> None:

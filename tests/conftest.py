@@ -54,9 +54,37 @@ def broker_url(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
 
 
 @pytest.fixture
-def prefix() -> str:
-    """A topic prefix of this test alone, so tests on the shared broker do not see each other."""
-    return "fwtest-" + uuid.uuid4().hex[:10]
+def prefix(request: pytest.FixtureRequest) -> Iterator[str]:
+    """A topic prefix of this test alone, so tests on the shared broker do not see each other.
+    Afterwards the retained messages left under it (status, alerts ...) are cleared."""
+    p = "fwtest-" + uuid.uuid4().hex[:10]
+    yield p
+    if "broker_url" in request.fixturenames:
+        _clear_retained(request.getfixturevalue("broker_url"), p)
+
+
+def _clear_retained(url: str, prefix: str) -> None:
+    import time
+
+    import paho.mqtt.client as mqtt
+
+    from frontwatch.service.settings import parse_broker_url
+
+    b = parse_broker_url(url)
+    topics: set[str] = set()
+    c = mqtt.Client(mqtt.CallbackAPIVersion.VERSION2)
+    c.on_message = lambda _c, _u, m: topics.add(m.topic) if m.retain and m.payload else None
+    try:
+        c.connect(b.host, b.port)
+    except OSError:
+        return
+    c.loop_start()
+    c.subscribe(prefix + "/#")
+    time.sleep(0.3)
+    for t in topics:
+        c.publish(t, b"", qos=1, retain=True).wait_for_publish(2)
+    c.loop_stop()
+    c.disconnect()
 
 
 @pytest.fixture(scope="session")

@@ -4,9 +4,11 @@ counted by reason while the stream goes on, status topic with last will, metrics
 from __future__ import annotations
 
 import asyncio
+import contextlib
 import json
 import math
 import socket
+from pathlib import Path
 
 import aiomqtt
 import httpx
@@ -165,3 +167,54 @@ async def test_publisher_speed_follows_data_time(broker_url: str, prefix: str) -
     dt = loop.time() - t0
     assert stats.messages == 6
     assert 0.45 <= dt < 2.0
+
+
+REPLAY_DATA = Path(__file__).resolve().parent.parent / "replay_data"
+
+
+@pytest.mark.skipif(not (REPLAY_DATA / "network.toml").exists(), reason="demo scenario not in this checkout")
+async def test_demo_scenario_through_a_gateway_gives_every_replay_output(broker_url: str, prefix: str,  # type: ignore[no-untyped-def]
+                                                                        tmp_path) -> None:
+    """The shipped scenario (sites, so forecasts and alerts too) sent as gateway batches: the service
+    stores exactly the outputs an offline replay gives, in the same order, and publishes each."""
+    net = tmp_path / "network.toml"
+    net.write_text((REPLAY_DATA / "network.toml").read_text().replace("[network]\n", '[network]\ngateways = ["gw"]\n', 1))
+    cfg = load_network(net)
+    files = [REPLAY_DATA / "observations.csv"]
+    reference = [o.to_dict() for o in run_replay(files, cfg).outputs]
+    st = _settings(broker_url, prefix)
+    svc = Service(cfg, st)
+    stop = asyncio.Event()
+    got: list[tuple[str, bytes, bool]] = []
+    ready = asyncio.Event()
+    sub = asyncio.create_task(_collect(broker_url, prefix + "/+/+", got, ready))
+    await ready.wait()
+    run = asyncio.create_task(svc.run(stop))
+    assert await wait_until(svc.connected.is_set, 10)
+    msgs = plan_messages(read_observations(files, cfg), prefix, gateway="gw", batch=100)
+    await feed_in_steps(svc, msgs, st, step=200, timeout=60)
+    assert await wait_until(lambda: sum(1 for t, _, _ in got if "/obs/" not in t) >= len(reference), 20)
+    stored = svc.store.outputs()
+    stop.set()
+    await run
+    sub.cancel()
+    assert stored == reference
+    published = [json.loads(p) for t, p, _ in got if "/obs/" not in t]
+    assert sorted(map(json.dumps, published)) == sorted(map(json.dumps, reference))
+    kinds = {t.split("/")[1] for t, _, _ in got if "/obs/" not in t}
+    assert {"events", "forecasts", "alerts"} <= kinds
+    # Alerts are retained: a newcomer gets each site's current state at once.
+    last_alert = {}
+    for o in reference:
+        if o.get("type") == "alert":
+            last_alert[o["site"]] = o
+    b = parse_broker_url(broker_url)
+    late: dict[str, dict[str, object]] = {}
+    async with aiomqtt.Client(b.host, b.port) as c:
+        await c.subscribe(prefix + "/alerts/+", qos=1)
+        with contextlib.suppress(TimeoutError):
+            async with asyncio.timeout(1.0):
+                async for m in c.messages:
+                    assert m.retain
+                    late[m.topic.value.rsplit("/", 1)[1]] = json.loads(m.payload)  # type: ignore[arg-type]
+    assert late == last_alert

@@ -44,8 +44,8 @@ def find_demo_data(explicit: Path | None = None) -> tuple[Path, list[Path]]:
                       + ", ".join(str(d) for d in dirs))
 
 
-def describe(out: dict[str, Any], config: NetworkConfig) -> str:
-    """One line for the running log."""
+def describe(out: dict[str, Any], config: NetworkConfig) -> str | None:
+    """One line for the running log (None for outputs too frequent to list, e.g. course summaries)."""
     tz = config.tz or UTC
 
     def hm(iso: str | None) -> str:
@@ -69,8 +69,9 @@ def describe(out: dict[str, Any], config: NetworkConfig) -> str:
     if kind == "forecast":
         eta = hm(out.get("eta")) if out.get("eta") else "not expected"
         return f"FORECAST  {hm(out.get('issued_at'))}  site {out.get('site')}: front ETA {eta}"
-    head = out.get("headline") or out.get("state")
-    return f"ALERT     {hm(out.get('issued_at'))}  site {out.get('site')}: {out.get('state')} - {head}"
+    if kind == "alert":
+        return f"ALERT     {hm(out.get('issued_at'))}  site {out.get('site')}: {out.get('headline') or out.get('state')}"
+    return None
 
 
 def _fast_until(messages: list[tuple[float, str, bytes, int]], config: NetworkConfig, hour: float) -> float:
@@ -109,7 +110,12 @@ async def run_demo(*, data: Path | None = None, broker: str | None = None, speed
         settings = ServiceSettings(broker=parse_broker_url(broker), prefix="frontwatch",
                                    client_id=f"frontwatch-demo-{os.getpid()}", db_path=None, http_port=port,
                                    backoff_min_s=0.2, backoff_max_s=5.0)
-        svc = Service(config, settings, on_output=lambda out: say(describe(out, config)))
+        def show(out: dict[str, Any]) -> None:
+            line = describe(out, config)
+            if line is not None:
+                say(line)
+
+        svc = Service(config, settings, on_output=show)
         task = asyncio.create_task(svc.run(stop))
         try:
             await asyncio.wait_for(svc.connected.wait(), 15)

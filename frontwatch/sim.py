@@ -104,7 +104,7 @@ class Scenario:
         paths = {name: d / name for name in ("network.toml", "observations.csv", "labels.jsonl", "fronts.jsonl",
                                               "faults.jsonl", "nuisances.jsonl", "scenario.json")}
         paths["network.toml"].write_text(self.network_toml, encoding="utf-8")
-        self.observations.to_csv(paths["observations.csv"], index=False, float_format="%.1f", lineterminator="\n")
+        write_csv(self.observations, paths["observations.csv"])
         for name, items in (("labels.jsonl", self.labels), ("fronts.jsonl", self.fronts),
                             ("faults.jsonl", self.faults), ("nuisances.jsonl", self.nuisances)):
             paths[name].write_text("".join(json.dumps(x) + "\n" for x in items), encoding="utf-8")
@@ -112,6 +112,21 @@ class Scenario:
                 "stations": len(self.setting.stations), "note": "invented setting, generated data"}
         paths["scenario.json"].write_text(json.dumps(meta, indent=2) + "\n", encoding="utf-8")
         return paths
+
+
+def write_csv(df: pd.DataFrame, path: Path) -> None:
+    """The records as CSV: empty cell = missing, numbers in their shortest form (22.0 -> 22).
+
+    pyarrow's writer, about ten times faster than pandas' for the benchmark file. No value holds
+    a comma or a quote (generated ids and ISO times), so nothing is quoted.
+    """
+    import pyarrow as pa
+    import pyarrow.csv as pacsv
+
+    table = pa.Table.from_pandas(df, preserve_index=False)
+    with open(path, "wb") as fh:  # the header written here: pyarrow would quote it
+        fh.write((",".join(df.columns) + "\n").encode())
+        pacsv.write_csv(table, fh, write_options=pacsv.WriteOptions(include_header=False, quoting_style="none"))
 
 
 def _clock(spec: ScenarioSpec, offset_h: float) -> Clock:

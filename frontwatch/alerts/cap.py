@@ -53,12 +53,10 @@ def _check(value: str, allowed: tuple[str, ...], name: str) -> str:
     return value
 
 
-def to_cap(alert: dict[str, Any], *, sender: str = DEFAULT_SENDER, status: str = "Actual",
-           previous_sent: str | None = None) -> ET.Element:
+def to_cap(alert: dict[str, Any], *, sender: str = DEFAULT_SENDER, status: str = "Actual") -> ET.Element:
     """The CAP <alert> element for one alert dict (AlertMessage.to_dict()).
 
-    `previous_sent` is the ISO time of the message referenced (needed for CAP's references triple);
-    when it is unknown the reference still names the previous identifier with this message's time.
+    `status` is CAP's: 'Actual' for a live service, 'Exercise' or 'Test' for demos and drills.
     """
     ET.register_namespace("", CAP_NS)
     root = ET.Element(f"{{{CAP_NS}}}alert")
@@ -71,7 +69,7 @@ def to_cap(alert: dict[str, Any], *, sender: str = DEFAULT_SENDER, status: str =
     _sub(root, "msgType", _check(alert["msg_type"], MSG_TYPES, "msgType"))
     _sub(root, "scope", "Public")
     if alert.get("references"):
-        ref_sent = _iso_to_cap(previous_sent) if previous_sent else sent
+        ref_sent = _iso_to_cap(alert.get("references_issued_at")) or sent
         _sub(root, "references", f"{sender},{alert['references']},{ref_sent}")
     info = _sub(root, "info")
     _sub(info, "language", "en")

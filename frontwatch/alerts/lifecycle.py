@@ -83,6 +83,7 @@ class AlertMessage:
     id: str
     seq: int
     references: str | None
+    references_issued_at: float | None
     site: str
     site_name: str | None
     lat: float
@@ -123,6 +124,7 @@ class AlertMessage:
             "msg_type": self.msg_type,
             "seq": self.seq,
             "references": self.references,
+            "references_issued_at": _iso(self.references_issued_at),
             "issued_at": iso_z(self.issued_at),
             "eta": _iso(self.eta),
             "eta_earliest": _iso(self.eta_earliest),
@@ -255,6 +257,7 @@ class SiteAlerts:
         if wanted == ARRIVED_STATE and fc_now.status == ARRIVED:
             self.arrived_at = fc_now.eta
         prev = None if new_episode or self.alert_id is None else f"{self.alert_id}-{self.seq}"
+        prev_at = None if prev is None else self.last_sent
         self.seq += 1
         self.state = wanted
         self.last_sent = now
@@ -270,10 +273,10 @@ class SiteAlerts:
             warnings.append(f"no data from the site's station {station} since {since}: "
                             "the passage at the site cannot be confirmed")
         assert self.alert_id is not None
-        return self._message(now, fc_now, wanted, msg_type, prev, exceeded, tuple(warnings))
+        return self._message(now, fc_now, wanted, msg_type, prev, prev_at, exceeded, tuple(warnings))
 
     def _message(self, now: float, fc: SiteForecast, state: str, msg_type: str, prev: str | None,
-                 exceeded: tuple[Exceeded, ...], warnings: tuple[str, ...]) -> AlertMessage:
+                 prev_at: float | None, exceeded: tuple[Exceeded, ...], warnings: tuple[str, ...]) -> AlertMessage:
         site = self.site
         name = site.name or site.id
         lead = None if fc.eta is None else fc.eta - now
@@ -321,7 +324,7 @@ class SiteAlerts:
         else:
             certainty = "Likely" if fc.basis == "fit" else "Possible"
         return AlertMessage(
-            id=self.alert_id or "", seq=self.seq, references=prev, site=site.id, site_name=site.name,
+            id=self.alert_id or "", seq=self.seq, references=prev, references_issued_at=prev_at, site=site.id, site_name=site.name,
             lat=site.lat, lon=site.lon, state=state, msg_type=msg_type, issued_at=now, eta=eta,
             eta_earliest=fc.eta_earliest if state in (APPROACHING, IMMINENT) else None,
             eta_latest=fc.eta_latest if state in (APPROACHING, IMMINENT) else None,

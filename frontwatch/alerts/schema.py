@@ -82,6 +82,7 @@ ALERT_SCHEMA: dict[str, Any] = {
         "msg_type": {"enum": ["Alert", "Update", "Cancel"]},
         "seq": {"type": "integer", "minimum": 1},
         "references": {"type": ["string", "null"]},
+        "references_issued_at": _TIME_OR_NULL,
         "issued_at": _TIME,
         "eta": _TIME_OR_NULL,
         "eta_earliest": _TIME_OR_NULL,

@@ -6,8 +6,9 @@ Per minute, from the site station's observations:
 - the 10-minute direction against the course axis (signed; positive = veered, clockwise of the axis);
 - the pattern over the last PATTERN_MIN minutes of one-minute directions: a 'persistent' shift (the
   late mean moved away from the early mean by more than the oscillation explains), an 'oscillating'
-  wind (repeated crossings of the detrended mean, with period from the mean spacing of crossings and
-  amplitude sqrt(2) x the residual sd, as for a sinusoid), 'steady', or 'unsettled';
+  wind (repeated crossings of the detrended mean by a smooth swing, lag-1 autocorrelation >= 0.5,
+  which minute-to-minute noise does not have; period from the mean spacing of crossings, amplitude
+  sqrt(2) x the residual sd, as for a sinusoid), 'steady', or 'unsettled';
 - 'new breeze filled in and steady': the 10-minute wind is onshore, at speed, with a small spread,
   and has stayed so for NEW_BREEZE_HOLD_MIN minutes; reported with the minute it first was so.
 A report goes out only when the summary changes meaningfully (pattern or new-breeze flag, which
@@ -32,6 +33,8 @@ PATTERN_MIN_POINTS = 20
 PERSIST_DEG = 10.0
 OSC_MIN_DEG = 4.0
 OSC_MIN_CROSSINGS = 3
+OSC_MIN_AUTOCORR = 0.5
+OSC_MIN_PERIOD_MIN = 4.0
 STEADY_SPREAD_DEG = 12.0
 NEW_BREEZE_MIN_MS = 2.0
 NEW_BREEZE_MAX_SPREAD_DEG = 15.0
@@ -163,9 +166,13 @@ def analyse_pattern(minute_dirs: list[tuple[float, float]]) -> Pattern:
     period = None
     if len(crossings) >= 2:
         period = 2.0 * (crossings[-1] - crossings[0]) / (len(crossings) - 1)
+    # Lag-1 autocorrelation of the residual: a smooth swing of period P gives about cos(2 pi / P)
+    # (0.87 for 12 min); minute-to-minute noise gives about 0.
+    r1 = sum(a * b for a, b in zip(e, e[1:], strict=False)) / (sd * sd * n) if sd > 0 else 0.0
     if abs(trend) >= PERSIST_DEG and abs(trend) >= 1.5 * amp:
         return Pattern("persistent", trend, None, None)
-    if len(crossings) >= OSC_MIN_CROSSINGS and amp >= OSC_MIN_DEG:
+    if (len(crossings) >= OSC_MIN_CROSSINGS and amp >= OSC_MIN_DEG and r1 >= OSC_MIN_AUTOCORR
+            and period is not None and period >= OSC_MIN_PERIOD_MIN):
         return Pattern("oscillating", trend, period, amp)
     y = yamartino_sigma_deg([d for _, d in pts[-10:]])
     return Pattern("steady" if y <= STEADY_SPREAD_DEG else "unsettled", trend, None, None)

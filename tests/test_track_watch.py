@@ -1,0 +1,165 @@
+"""SiteWatch on synthetic passages of fronts with known motion (frontwatch.network.synthetic).
+
+The network: 4 x 3 stations on a coast running north-south, the sea to the east, the front moving
+inland (west). The known front's speed and heading are the reference; onsets are the true crossing
+times (plus seeded noise where said).
+"""
+
+from __future__ import annotations
+
+import json
+from typing import Any
+
+import pytest
+
+from frontwatch.calc.geo import local_xy_m
+from frontwatch.config import NetworkConfig, parse_network
+from frontwatch.events import PassageEvent
+from frontwatch.network.synthetic import crossing_time, front_events, observation_stream
+from frontwatch.network.watch import SiteWatch
+from frontwatch.timeutil import parse_time
+
+T0 = parse_time("2026-01-14T01:00:00Z")  # 11:00 local (UTC+10)
+LAT0, LON0 = -27.30, 153.20
+
+
+def _network(extra_sites: list[dict[str, Any]] | None = None) -> NetworkConfig:
+    stations = []
+    for i in range(5):  # 5 columns inland, 6 km apart
+        for j in range(3):
+            stations.append({"id": f"S{i}{j}", "lat": LAT0 - 0.08 * j, "lon": LON0 - 0.061 * i, "onshore_from_deg": 90})
+    sites = [
+        # 'green' has its own station S30 (explicit); 'field' none within 5 km (estimated arrival).
+        {"id": "green", "lat": LAT0, "lon": LON0 - 0.061 * 3, "station": "S30", "gust_limit_ms": 8.0},
+        {"id": "field", "lat": LAT0 - 0.12, "lon": LON0 - 0.061 * 2.5},
+    ] + (extra_sites or [])
+    return parse_network({"network": {"name": "test-coast", "utc_offset_hours": 10}, "stations": stations,
+                          "sites": sites})
+
+
+def _run(cfg: NetworkConfig, events: list[PassageEvent], hours: float = 7.0) -> list[dict[str, Any]]:
+    w = SiteWatch(cfg)
+    out: list[dict[str, Any]] = []
+    for obs, ev in observation_stream(cfg, events, T0 - 1800, T0 + hours * 3600):
+        out.extend(o.to_dict() for o in w.observe(obs, ev))
+    return out
+
+
+def _true_arrival(cfg: NetworkConfig, site: str, speed: float, heading: float) -> float:
+    s = next(x for x in cfg.sites if x.id == site)
+    x, y = local_xy_m(s.lat, s.lon, LAT0, LON0)
+    return crossing_time(x, y, T0, speed, heading)[0]
+
+
+def test_known_front_recovered_from_three_stations() -> None:
+    """Speed 2.5 m/s toward 265 deg, onsets with 60 s noise: once >= 3 stations have reported
+    (basis fit), speed within 10 % and heading within 10 deg (issue 4 asks 20 % / 20 deg)."""
+    cfg = _network()
+    evs = front_events(cfg, t0=T0, speed_ms=2.5, heading_deg=265.0, lat0=LAT0, lon0=LON0, onset_sd_s=60.0, seed=3)
+    out = _run(cfg, evs)
+    fits = [o for o in out if o["type"] == "forecast" and o["basis"] == "fit"]
+    assert fits, "no fitted forecast"
+    for o in fits:
+        assert o["stations"] >= 3
+        assert o["front_speed_ms"] == pytest.approx(2.5, rel=0.10)
+        assert abs((o["front_heading_deg"] - 265.0 + 180) % 360 - 180) <= 10.0
+
+
+def test_site_eta_early_and_accurate() -> None:
+    cfg = _network()
+    speed, heading = 2.5, 270.0
+    evs = front_events(cfg, t0=T0, speed_ms=speed, heading_deg=heading, lat0=LAT0, lon0=LON0)
+    out = _run(cfg, evs)
+    truth = _true_arrival(cfg, "field", speed, heading)
+    pre = [o for o in out if o["type"] == "forecast" and o["site"] == "field" and o["status"] == "expected"
+           and parse_time(o["issued_at"]) < truth]
+    assert pre
+    assert truth - parse_time(pre[0]["issued_at"]) >= 15 * 60  # first forecast >= 15 min ahead
+    last15 = [o for o in pre if truth - parse_time(o["issued_at"]) >= 15 * 60][-1]
+    # Within 8 min: the forecaster assumes fronts speed up (Linacre & Geerts 1997); this one does not.
+    assert abs(parse_time(last15["eta"]) - truth) <= 8 * 60
+    for o in pre:
+        assert parse_time(o["eta_earliest"]) <= truth <= parse_time(o["eta_latest"])
+    arrived = [o for o in out if o["type"] == "forecast" and o["site"] == "field" and o["status"] == "arrived"]
+    assert arrived and abs(parse_time(arrived[0]["eta"]) - truth) <= 8 * 60
+
+
+def test_alert_lifecycle_at_a_site_with_its_own_station() -> None:
+    cfg = _network()
+    evs = front_events(cfg, t0=T0, speed_ms=2.5, heading_deg=270.0, lat0=LAT0, lon0=LON0, gust_after_ms=9.5)
+    out = _run(cfg, evs)
+    alerts = [o for o in out if o["type"] == "alert" and o["site"] == "green"]
+    assert [a["state"] for a in alerts] == ["approaching", "imminent", "arrived", "clear"]
+    assert len({a["id"] for a in alerts}) == 1
+    assert [a["seq"] for a in alerts] == [1, 2, 3, 4]
+    assert alerts[0]["references"] is None and alerts[0]["msg_type"] == "Alert"
+    for prev, cur in zip(alerts, alerts[1:], strict=False):
+        assert cur["references"] == prev["message_id"] and cur["msg_type"] == "Update"
+    s30 = next(e for e in evs if e.station == "S30")
+    assert parse_time(alerts[2]["eta"]) == s30.onset  # arrived: the site's station's own onset
+    # The gust limit (8 m/s) is below the upstream post-front gusts (9.5 m/s): said with the lead time.
+    ex = alerts[0]["thresholds_exceeded"]
+    assert ex and ex[0]["quantity"] == "gust" and ex[0]["limit"] == 8.0
+    assert alerts[0]["severity"] == "Moderate" and alerts[0]["lead_time_min"] > 15
+
+
+def test_stall_short_of_sites_gives_not_expected_and_no_alert() -> None:
+    """The front stops after 8 km: the stations 12 km and more inland stay silent, so sites beyond
+    them are 'not expected' and get no alert."""
+    cfg = _network()
+    evs = front_events(cfg, t0=T0, speed_ms=2.5, heading_deg=270.0, lat0=LAT0, lon0=LON0, stop_progress_m=8000)
+    assert {e.station[:2] for e in evs} == {"S0", "S1"}
+    out = _run(cfg, evs)
+    for site in ("green", "field"):
+        assert not [o for o in out if o["type"] == "alert" and o["site"] == site]
+        fcs = [o for o in out if o["type"] == "forecast" and o["site"] == site]
+        assert fcs[-1]["status"] == "not_expected" and fcs[-1]["reason"] == "stalled"
+        assert fcs[-1]["eta"] is None
+
+
+def test_other_event_kinds_are_not_tracked() -> None:
+    cfg = _network()
+    evs = [PassageEvent(e.station, "gust_front", e.onset, e.detected_at, 0.8, 250.0, 300.0, 6.0, -6.0, -1.0, 2.5)
+           for e in front_events(cfg, t0=T0, speed_ms=8.0, heading_deg=270.0, lat0=LAT0, lon0=LON0)]
+    out = _run(cfg, evs, hours=3)
+    assert not [o for o in out if o["type"] in ("forecast", "alert")]
+
+
+def test_no_flapping_with_noisy_onsets() -> None:
+    for seed in range(4):
+        cfg = _network()
+        evs = front_events(cfg, t0=T0, speed_ms=2.0, heading_deg=262.0, lat0=LAT0, lon0=LON0, onset_sd_s=150.0,
+                           seed=seed)
+        out = _run(cfg, evs)
+        for site in ("green", "field"):
+            states = [o["state"] for o in out if o["type"] == "alert" and o["site"] == site]
+            changes = [s for i, s in enumerate(states) if i == 0 or s != states[i - 1]]
+            assert changes == sorted(set(changes), key=changes.index)  # no state comes back
+            assert ("imminent", "approaching") not in list(zip(changes, changes[1:], strict=False))
+
+
+def test_snapshot_restore_gives_identical_outputs() -> None:
+    cfg = _network()
+    evs = front_events(cfg, t0=T0, speed_ms=2.5, heading_deg=268.0, lat0=LAT0, lon0=LON0, onset_sd_s=60.0, seed=1)
+    stream = list(observation_stream(cfg, evs, T0 - 1800, T0 + 6 * 3600))
+    whole = SiteWatch(cfg)
+    ref = [o.to_dict() for obs, ev in stream for o in whole.observe(obs, ev)]
+    for cut in (len(stream) // 3, len(stream) // 2):
+        a = SiteWatch(cfg)
+        out = [o.to_dict() for obs, ev in stream[:cut] for o in a.observe(obs, ev)]
+        snap = json.loads(json.dumps(a.snapshot(), allow_nan=False))  # strict JSON
+        b = SiteWatch(cfg)
+        b.restore(snap)
+        out += [o.to_dict() for obs, ev in stream[cut:] for o in b.observe(obs, ev)]
+        assert out == ref
+    again = SiteWatch(cfg)
+    assert [o.to_dict() for obs, ev in stream for o in again.observe(obs, ev)] == ref  # deterministic
+
+
+def test_site_with_no_station_gets_an_estimated_arrival_warning() -> None:
+    cfg = _network()
+    evs = front_events(cfg, t0=T0, speed_ms=2.5, heading_deg=270.0, lat0=LAT0, lon0=LON0)
+    out = _run(cfg, evs)
+    alerts = [o for o in out if o["type"] == "alert" and o["site"] == "field"]
+    assert alerts
+    assert any("estimated" in w for w in alerts[0]["data_warnings"])

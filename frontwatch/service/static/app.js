@@ -12,7 +12,7 @@ const S = {
   net: "", stations: new Map(), sites: new Map(), events: [], alerts: [], front: null,
   dataTime: null, staleAfter: 600, tzOffsetMin: null, seq: 0, selected: null,
   dirty: new Set(), dirtyAll: false, frameQueued: false, traceDirty: false, lastTraceDraw: 0,
-  proj: null, es: null, lostSince: null, updates: 0,
+  proj: null, es: null, lostSince: null, updates: 0, frames: 0, lastId: 0,
 };
 
 function api(path) {
@@ -65,6 +65,7 @@ async function loadState() {
   const st = await r.json();
   S.net = st.network;
   S.seq = st.seq;
+  S.lastId = st.seq;
   S.staleAfter = st.stale_after_s;
   S.tzOffsetMin = st.tz_offset_min;
   S.dataTime = tparse(st.data_time);
@@ -612,6 +613,7 @@ function schedule(all) {
 }
 function flush() {
   S.frameQueued = false;
+  S.frames++;
   const now = performance.now();
   if (S.dirtyAll) {
     S.dirtyAll = false;
@@ -673,7 +675,10 @@ function openStream(since) {
   if (S.es) S.es.close();
   const es = new EventSource(api("api/stream?since=" + since));
   S.es = es;
-  const wrap = (fn) => (m) => { try { fn(JSON.parse(m.data)); } catch (err) { console.error(err); } };
+  const wrap = (fn) => (m) => {
+    S.lastId = Number(m.lastEventId);
+    try { fn(JSON.parse(m.data)); } catch (err) { console.error(err); }
+  };
   es.addEventListener("obs", wrap(onObs));
   es.addEventListener("event", wrap(onEvent));
   es.addEventListener("forecast", wrap(onForecast));

@@ -89,7 +89,11 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
     """Apply one day's breeze front to the fields; return (labels, front description, breeze ends)."""
     south = setting.hemisphere == "south"
     B = setting.inland_bearing_deg
-    dev = float(np.clip(rng.normal(0.0, 8.0), -20.0, 20.0))
+    # Heading = shore normal turned by up to 20 deg; on a long coast less, so that the line forms
+    # along the whole stretch within ~10 km of travel (about an hour), as heating is near-uniform.
+    span = setting.along_span_km[1] - setting.along_span_km[0]
+    dev_max = min(20.0, math.degrees(math.asin(min(1.0, 10.0 / span))))
+    dev = float(np.clip(rng.normal(0.0, 8.0), -dev_max, dev_max))
     heading = (B + dev) % 360.0
     d_st, a_st = setting.shore_km, setting.along_km
     dist = front_distance(setting, d_st, a_st, dev)

@@ -207,6 +207,15 @@ def test_arrival_order_follows_distance_along_the_heading(north):
         dd = [p["distance_km"] for p in front["track"]]
         for x, t in zip(proj, times, strict=True):
             assert abs(np.interp(t, tt, dd) - x) < lobe + 0.3
+        # Sites: the stated arrival is where the track reaches them; null only if it never does.
+        for site in sc.network["sites"]:
+            az, _, dist = geod.inv(o["lon"], o["lat"], site["lon"], site["lat"])
+            x = dist / 1000.0 * math.cos(math.radians(az - front["heading_deg"]))
+            eta = front["site_arrivals"][site["id"]]
+            if eta is None:
+                assert max(dd) < x + lobe + 0.3
+            else:
+                assert abs(np.interp(parse_time(eta), tt, dd) - x) < lobe + 0.3
     assert checked >= 2
 
 
@@ -302,3 +311,20 @@ def test_noise_scale_two_doubles_the_minute_to_minute_noise():
 
     ratio = jitter(noisy) / jitter(quiet)
     assert 1.5 < ratio < 2.6, ratio
+
+
+def test_weak_inland_variant_fades_faster():
+    kw = {"seed": 12, "days": 1, "stations": 8, "plan": ("breeze",), "fault_rate": 0.0}
+    ordinary, weak = generate(ScenarioSpec(**kw)), generate(ScenarioSpec(weak_inland=True, **kw))
+    d = {s.id: s.shore_km for s in ordinary.setting.stations}
+
+    def far_over_near(sc):
+        labs = sorted(of_kind(sc, "breeze_front"), key=lambda x: d[x["station"]])
+        assert len(labs) >= 4
+        return labs[-1]["change"]["temp_c"] / labs[0]["change"]["temp_c"], d[labs[-1]["station"]]
+
+    r_ord, far_ord = far_over_near(ordinary)
+    r_weak, far_weak = far_over_near(weak)
+    assert far_ord > 15 and far_weak > 15
+    assert r_weak < r_ord
+    assert r_weak < 0.5

@@ -198,7 +198,8 @@ def generate(spec: ScenarioSpec | None = None) -> Scenario:
     no_pres = r_set.random(n) < 0.15
     no_rain = r_set.random(n) < 0.2
     no_pres[0] = no_rain[0] = False
-    rep = observe(fields, r_noise, spec.noise_scale, smeared, no_pres, no_rain)
+    exposure = r_set.uniform(0.65, 1.15, n)  # sheltered to open masts (from memory)
+    rep = observe(fields, r_noise, spec.noise_scale, smeared, no_pres, no_rain, exposure)
     ids = [s.id for s in setting.stations]
     faults = add_faults(rep, r_fault, clock, ids, spec.fault_rate) if spec.fault_rate > 0 else []
     table = to_table(rep, clock, ids, r_fault, spec.fault_rate, faults)

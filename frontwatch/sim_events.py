@@ -151,7 +151,8 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
     # Veering (backing) mostly after the station's own onset, a little with the circulation's age.
     age_h = (0.3 * (m - m0) + 0.7 * np.clip(m - ma, 0.0, None)) / 60.0
     direction = onshore + off[:, None] + np.clip(veer * age_h, -30.0, 30.0)
-    ub, vb_ = wind_vector(direction, vb[:, None])
+    # The breeze freshens over the first ~1.5 h behind its front.
+    ub, vb_ = wind_vector(direction, vb[:, None] * (0.75 + 0.25 * smoothstep((m - ma) / 90.0)))
     f = fields
     # Behind the front the marine layer keeps a little of the alongshore large-scale wind only.
     ax, ay = unit(onshore + 90.0)

@@ -203,18 +203,20 @@ class SiteAlerts:
         if fc.status != EXPECTED or fc.eta is None:
             return st
         lead = fc.eta - now
+        # 'Imminent' needs the interval too: even its late end within IMMINENT_EXIT_S.
+        soon = lead <= IMMINENT_S and (fc.eta_latest is None or fc.eta_latest - now <= IMMINENT_EXIT_S)
         if st in (None, CLEAR, CANCELLED):
             # A first alert waits until no station short of the site is still to report (a stall
             # short of the site shows there first), and for the ETA to be close enough.
             if fc.upstream_pending > 0:
                 return st
-            if lead <= IMMINENT_S:
+            if soon:
                 return IMMINENT
             if lead <= ISSUE_LEAD_S and (fc.basis == "fit" or (fc.stations >= ISSUE_MIN_STATIONS
                                                                and lead <= ISSUE_LEAD_PRIOR_S)):
                 return APPROACHING
             return st
-        if st == APPROACHING and lead <= IMMINENT_S:
+        if st == APPROACHING and soon:
             return IMMINENT
         if st == IMMINENT and lead > IMMINENT_EXIT_S:
             return APPROACHING

@@ -1,7 +1,7 @@
 """Site forecasts: when a tracked front reaches a site, with an interval, and what comes behind it.
 
 The ETA is the fitted front's arrival time at the site, sped up as fronts do through the day (see
-accelerated_eta) unless the fit has measured the acceleration itself. Its interval is 90 %
+FrontFit.predict) unless the fit has measured the acceleration itself. Its interval is 90 %
 (1.645 sd) of the fit's own uncertainty, the assumed speed-up, and a model error that grows with the
 lead time (real fronts also slow down and bend): MODEL_REL_ERR of the lead time (common practice,
 no source). Expected post-front conditions come from the most recent upstream
@@ -22,12 +22,6 @@ Z90 = 1.645  # two-sided 90 % interval of a normal distribution
 MODEL_REL_ERR = 0.12
 MIN_HALF_WIDTH_S = 180.0
 UPSTREAM_N = 3  # passages used for the expected post-front conditions
-# Fronts speed up through the day: "from under 3 to over 6 m/s" (Linacre & Geerts 1997). Reading
-# that as a doubling over about five hours gives 0.2 per hour (the rate is from memory, not a
-# published figure); capped at 2.5 times. Used where the data do not show the acceleration yet
-# (fits without the fitted acceleration term).
-ACCEL_PER_H = 0.2
-ACCEL_MAX_FACTOR = 2.5
 
 # Site forecast statuses (docs/alerts.md).
 EXPECTED = "expected"
@@ -137,27 +131,6 @@ class SiteForecast:
         return cls(**d)
 
 
-def accelerated_eta(t_ref: float, eta_const: float, accel_per_h: float = ACCEL_PER_H,
-                    max_factor: float = ACCEL_MAX_FACTOR) -> float:
-    """Arrival time of a front that speeds up, from the constant-speed arrival time.
-
-    The constant-speed fit gives the front's speed v at t_ref (the mean time of the passages it
-    used) and a travel time d = eta_const - t_ref at that speed. With speed v (1 + a tau), tau the
-    time since t_ref, the distance v d is covered when tau + a tau^2 / 2 = d, so
-    tau = (sqrt(1 + 2 a d) - 1) / a; the speed-up stops at max_factor times v. Before t_ref
-    (upstream of the passages) nothing changes.
-    """
-    d = eta_const - t_ref
-    a = accel_per_h / 3600.0
-    if d <= 0.0 or a <= 0.0:
-        return eta_const
-    tau_cap = (max_factor - 1.0) / a
-    d_cap = tau_cap + a * tau_cap * tau_cap / 2.0
-    if d > d_cap:  # past the cap: on at the capped speed
-        return t_ref + tau_cap + (d - d_cap) / max_factor
-    return t_ref + (math.sqrt(1.0 + 2.0 * a * d) - 1.0) / a
-
-
 def expected_conditions(front: Front) -> Expected:
     """Post-front wind (circular mean direction, mean speed, highest gust) and mean temperature
     change of the front's latest UPSTREAM_N passages."""
@@ -200,8 +173,7 @@ def forecast_for_site(
     )
     if arrived_at is not None:
         return SiteForecast(status=ARRIVED, eta=arrived_at, eta_earliest=None, eta_latest=None, **common)
-    eta_lin, sd = f.arrival(x, y)
-    eta = eta_lin if f.curv else accelerated_eta(f.t0, eta_lin)
+    eta, eta_lin, sd = f.predict(x, y)
     if stall_progress is not None and f.progress(x, y) >= stall_progress:
         return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
                             reason="stalled", **common)

@@ -24,6 +24,7 @@ from .prior import PassageFacts, density_prior
 
 JOIN_TOL_S = 20 * 60.0  # an onset this close to the prediction (or 3 sd) joins the front
 JOIN_SIGMAS = 3.0
+JOIN_TOL_MAX_S = 60 * 60.0  # however uncertain the prediction (a prior far from its station), no more
 LINK_M = 60_000.0  # a joining station is at most this far from one already in the front
 OVERDUE_MIN_S = 15 * 60.0  # a station is overdue this long (or 2.5 sd) after its predicted time
 OVERDUE_SIGMAS = 2.5
@@ -146,8 +147,8 @@ class FrontTracker:
                 continue
             if min(math.hypot(a.x - arr.x, a.y - arr.y) for a in fr.arrivals.values()) > LINK_M:
                 continue
-            t_pred, sd = fr.fit.arrival(arr.x, arr.y)
-            tol = max(JOIN_TOL_S, JOIN_SIGMAS * sd)
+            t_pred, _, sd = fr.fit.predict(arr.x, arr.y)
+            tol = min(max(JOIN_TOL_S, JOIN_SIGMAS * sd), JOIN_TOL_MAX_S)
             err = abs(arr.onset - t_pred)
             if fr.stalled_at is not None and arr.onset > t_pred:
                 # A stalled front that moves on later: accept a late arrival further along.

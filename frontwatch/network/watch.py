@@ -142,16 +142,19 @@ class SiteWatch:
             return site.arrived[1]  # once arrived, the time stays (later refits do not move it)
         if site.station is None:
             # No station of its own: estimated from the track once a station at least as far along
-            # has reported, or once the ETA has passed with the front still moving.
+            # has reported, or once the ETA has passed with the front still moving and every
+            # station short of the site reached.
             f = fr.fit
             if f is None:
                 return None
             p = f.progress(site.x, site.y)
-            eta = f.arrival(site.x, site.y)[0]
+            eta = f.predict(site.x, site.y)[0]
+            if eta < fr.first_onset - ARRIVAL_MATCH_S:
+                return None  # behind where the front was first seen: not on its path (forecast says so)
             if any(f.progress(a.x, a.y) >= p for a in fr.arrivals.values()):
                 return eta
-            if fr.stalled_at is None and now >= eta and eta >= fr.first_onset:
-                return eta
+            if fr.stalled_at is None and now >= eta and self._pending(site, fr, now) == 0:
+                return eta  # (a checkpoint short of the site still to report: wait for it or a stall)
             return None
         a = fr.arrivals.get(site.station)
         if a is not None:
@@ -200,11 +203,12 @@ class SiteWatch:
         fc = self._forecast(site, cur, now) if cur is not None else None
         if changed is not None and changed is not cur:
             fc_new = self._forecast(site, changed, now)
-            if cur is None or fc is None:
+            if cur is None or fc is None or fc.status == NOT_EXPECTED:
                 take = fc_new.status != NOT_EXPECTED
-            else:  # keep following the current front unless the new one is better supported
-                take = fc_new.status == EXPECTED and (
-                    fc.status != EXPECTED or len(changed.arrivals) > len(cur.arrivals))
+            elif fc.status == EXPECTED:  # keep the current front unless the new one is better supported
+                take = fc_new.status != NOT_EXPECTED and len(changed.arrivals) > len(cur.arrivals)
+            else:  # arrived: only a new front still to come
+                take = fc_new.status == EXPECTED
             if take:
                 fr, fc = changed, fc_new
                 site.front = changed.key

@@ -593,7 +593,9 @@ function drawTrace() {
     const t = tparse(p.onset);
     if (t < t0 || t > t1) continue;
     el("line", { class: "pass", x1: X(t), x2: X(t), y1: panels[0][0], y2: d1, "data-passage": p.id || "" }, svg);
-    el("text", { class: "plbl", x: X(t) + 3, y: panels[1][0] - 2 }, svg).textContent = kindName(p.kind) + " " + localHM(t);
+    const left = X(t) > R - 110; // label on the left of a line near the right edge
+    el("text", { class: "plbl", x: left ? X(t) - 3 : X(t) + 3, y: panels[1][0] - 2, "text-anchor": left ? "end" : "start" },
+      svg).textContent = kindName(p.kind) + " " + localHM(t);
   }
 }
 

@@ -152,7 +152,12 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
     age_h = (0.3 * (m - m0) + 0.7 * np.clip(m - ma, 0.0, None)) / 60.0
     direction = onshore + off[:, None] + np.clip(veer * age_h, -30.0, 30.0)
     # The breeze freshens over the first ~1.5 h behind its front.
-    ub, vb_ = wind_vector(direction, vb[:, None] * (0.75 + 0.25 * smoothstep((m - ma) / 90.0)))
+    # The breeze freshens over the first ~1.5 h behind its front; the head of the current brings a
+    # short surge (Simpson & Britter 1980 describe the raised head; its size here is from memory).
+    head = (rng.uniform(0.0, 1.5, n) * (0.4 + 0.6 * decay))[:, None]
+    head_len = rng.uniform(5.0, 15.0, n)[:, None]
+    surge = head * smoothstep((m - ma) / tau[:, None]) * (1.0 - smoothstep((m - ma - tau[:, None]) / head_len))
+    ub, vb_ = wind_vector(direction, vb[:, None] * (0.75 + 0.25 * smoothstep((m - ma) / 90.0)) + surge)
     f = fields
     # Behind the front the marine layer keeps a little of the alongshore large-scale wind only.
     ax, ay = unit(onshore + 90.0)
@@ -167,8 +172,13 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
     # The marine air stays when the breeze dies in the evening: its coolness fades only as the land
     # cools below it, and its moisture over a few hours.
     diff = np.minimum(0.0, -dT[:, None] - 0.75 * (tb - t_at))
-    f.temp[:, sl] = tb + w_on * diff
-    f.dew[:, sl] += w_on * (1.0 - smoothstep((m - m_decay) / 240.0)) * dTd[:, None]
+    # Temperature and moisture follow the wind shift by 0-4 min (sensor response and mixing).
+    lag_t = rng.uniform(0.0, 4.0, n)[:, None]
+    lag_d = rng.uniform(0.0, 4.0, n)[:, None]
+    w_t = smoothstep((m - ma - lag_t) / tau[:, None])
+    w_d = smoothstep((m - ma - lag_d) / tau[:, None])
+    f.temp[:, sl] = tb + w_t * diff
+    f.dew[:, sl] += w_d * (1.0 - smoothstep((m - m_decay) / 240.0)) * dTd[:, None]
     f.pres[:, sl] += w * dp[:, None]
 
     labels = []

@@ -40,6 +40,7 @@ class Mosquitto:
     port: int = field(default_factory=free_port)
     extra: list[str] = field(default_factory=list)
     listener_extra: list[str] = field(default_factory=list)
+    persistence: bool = True  # keep sessions and queued messages across a restart (stop/start)
     proc: subprocess.Popen[bytes] | None = None
 
     @property
@@ -51,7 +52,7 @@ class Mosquitto:
         lines = [
             f"listener {self.port} 127.0.0.1",
             *self.listener_extra,
-            "persistence true",
+            f"persistence {'true' if self.persistence else 'false'}",
             f"persistence_location {self.workdir}/",
             "autosave_interval 1",
             f"log_dest file {self.workdir}/mosquitto.log",

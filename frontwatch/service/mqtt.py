@@ -3,7 +3,9 @@ TLS, auth, last will), reconnect delays, and topic helpers."""
 
 from __future__ import annotations
 
+import contextlib
 import random
+import socket
 import ssl
 from dataclasses import dataclass
 
@@ -63,8 +65,11 @@ def make_client(settings: ServiceSettings, *, client_id: str | None, persistent:
     client = aiomqtt.Client(
         b.host, b.port, identifier=client_id, username=settings.user, password=settings.secret,
         will=will, keepalive=settings.keepalive_s, tls_context=tls_context(settings), timeout=timeout,
+        # small packets (acks, events) go out at once instead of waiting on Nagle's algorithm
+        socket_options=((socket.IPPROTO_TCP, socket.TCP_NODELAY, 1),),
         **kwargs,  # type: ignore[arg-type]
     )
+    client.pending_calls_threshold = 2000  # outputs are published in batches; no warning per batch
     if manual_ack:
         # aiomqtt has no switch for this; paho acknowledges QoS 1 on receipt unless told not to,
         # and we only want to acknowledge once the message is safely in the store.
@@ -76,6 +81,12 @@ def ack(client: aiomqtt.Client, mid: int, qos: int) -> None:
     """Acknowledge one message received with manual acknowledgement."""
     if qos > 0:
         client._client.ack(mid, qos)
+
+
+def flush_writes(client: aiomqtt.Client) -> None:
+    """Write queued packets (our acks) now instead of on the next loop turn."""
+    with contextlib.suppress(Exception):  # a dying connection: the broker will redeliver
+        client._client.loop_write()
 
 
 def station_of(topic: str, obs_prefix: str) -> str | None:

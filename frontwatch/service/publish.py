@@ -100,7 +100,6 @@ async def publish_messages(messages: Sequence[tuple[float, str, bytes, int]], se
     first = True
     while pos < n and not (stop is not None and stop.is_set()):
         client = make_client(settings, client_id=client_id, persistent=client_id is not None, timeout=5.0)
-        client.pending_calls_threshold = WINDOW + 50
         down_at = time.monotonic()
         try:
             async with client:

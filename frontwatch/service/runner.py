@@ -31,7 +31,7 @@ from ..events import PassageEvent
 from ..obs import Observation, decode_payload
 from .hub import DashboardHub
 from .metrics import ServiceMetrics
-from .mqtt import Backoff, ack, make_client, station_of
+from .mqtt import Backoff, ack, flush_writes, make_client, station_of
 from .settings import ServiceSettings
 from .store import Store, output_key
 from .web import make_app
@@ -39,6 +39,7 @@ from .web import make_app
 log = logging.getLogger("frontwatch.service")
 
 MAX_BATCH = 2000  # messages per consumer batch (one transaction)
+GATHER_TURNS = 64  # loop turns the consumer waits for a batch to fill while messages keep coming
 
 
 @dataclass(slots=True)
@@ -243,6 +244,16 @@ class Service:
                     continue
                 if self._stopping.is_set():
                     return  # unacknowledged messages stay with the broker for next time
+                # The client reads one packet per loop turn: let what is already on the socket come
+                # in (the broker sends a window of unacknowledged messages) and take it as one batch,
+                # one transaction and one burst of acks. Costs at most a few loop turns of latency.
+                quiet = 0
+                for _ in range(GATHER_TURNS):
+                    n = self._arrived()
+                    await asyncio.sleep(0)
+                    quiet = quiet + 1 if self._arrived() == n else 0
+                    if quiet >= 2 or len(self.inbox) >= MAX_BATCH:
+                        break
                 batch = [self.inbox.popleft() for _ in range(min(len(self.inbox), MAX_BATCH))]
                 self.metrics.queue_depth.set(len(self.inbox))
                 self.process_batch(batch)
@@ -251,6 +262,11 @@ class Service:
                 await asyncio.sleep(0)
         finally:
             self._consumer_done.set()
+
+    def _arrived(self) -> int:
+        """Messages waiting: ours plus those the client has read but not handed over yet."""
+        c = self._client
+        return len(self.inbox) + (len(c.messages) if c is not None else 0)
 
     def _decode(self, topic: str, payload: bytes) -> tuple[list[Observation], list[Any]]:
         st = station_of(topic, self.obs_prefix)
@@ -266,19 +282,17 @@ class Service:
             return [], [DecodeError(f"undecodable payload: {type(exc).__name__}", station=st, code="undecodable")]
 
     def process_batch(self, batch: list[_Item]) -> None:
-        """Decode, feed, store, acknowledge; synchronous on purpose (see the module docstring)."""
+        """Decode, journal, acknowledge, feed, store outputs; synchronous on purpose (see the module
+        docstring). The acks go out before the core runs, so the broker sends the next window while
+        we work; what is acknowledged is already in the journal, which a restart feeds again."""
         m = self.metrics
         eng = self.engine
         known = eng.detectors
         hub = self.hub
         journal: list[tuple[str, bytes]] = []
-        outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
+        decoded: list[tuple[list[Observation], float]] = []
         m.messages.inc(len(batch))
         self.taken += len(batch)
-        n_rec = 0
-        t_core = 0.0
-        latest: dict[str, tuple[Observation, float]] = {}
-        perf = time.perf_counter
         for item in batch:
             obs, errors = self._decode(item.topic, item.payload)
             for err in errors:
@@ -287,14 +301,25 @@ class Service:
                 continue
             if any(o.station in known for o in obs):
                 journal.append((item.topic, item.payload))
+            decoded.append((obs, item.received))
+        if journal:
+            self.store.commit_batch(journal, ())
+        for item in batch:
+            self._ack(item)
+        if self._client is not None:
+            flush_writes(self._client)
+
+        outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
+        n_rec = 0
+        latest: dict[str, tuple[Observation, float]] = {}
+        t0 = time.perf_counter()
+        for obs, received in decoded:
             n_rec += len(obs)
-            t0 = perf()
             for o in obs:
                 for out in eng.feed(o):
-                    outputs.append(self._route(out.to_dict(), item.received))
-            t_core += perf() - t0
-            for o in obs:
-                latest[o.station] = (o, item.received)
+                    outputs.append(self._route(out.to_dict(), received))
+                latest[o.station] = (o, received)
+        t_core = time.perf_counter() - t0
         # The dashboard gets each station's newest record of the batch: every record at live rates
         # (a batch is one message), a sample when catching up on a backlog.
         for sid, (o, received) in latest.items():
@@ -305,9 +330,9 @@ class Service:
             m.records.inc(n_rec)
             m.processing.observe(t_core / n_rec)
         self._sync_engine_counters()
-        new = set(self.store.commit_batch(journal, outputs)) if (journal or outputs) else set()
-        for item in batch:
-            self._ack(item)
+        if not outputs:
+            return
+        new = set(self.store.commit_batch((), outputs))
         for key, _topic, payload, _retain, _created in outputs:
             if key in new:
                 hub.emit(payload)
@@ -374,21 +399,31 @@ class Service:
             await self._publish_wakeup.wait()
 
     async def _flush(self, client: aiomqtt.Client) -> None:
-        """Send every stored output the broker has not acknowledged yet, oldest first."""
+        """Send every stored output the broker has not acknowledged yet, oldest first.
+
+        Publishes of a batch are in flight together (the client sends them in order); each is
+        marked sent once the broker acknowledged it."""
         while True:
             pending = self.store.unpublished()
             if not pending:
                 return
+            results = await asyncio.gather(
+                *(client.publish(p.topic, p.payload.encode(), qos=1, retain=p.retain) for p in pending),
+                return_exceptions=True)
             done: list[int] = []
-            try:
-                for p in pending:
-                    await client.publish(p.topic, p.payload.encode(), qos=1, retain=p.retain)
-                    done.append(p.n)
-                    self.metrics.outputs.labels(p.type).inc()
-                    if p.created > 0:
-                        self.metrics.latency.observe(max(0.0, time.time() - p.created))
-            finally:
-                self.store.mark_published(done)
+            now = time.time()
+            failure: BaseException | None = None
+            for p, res in zip(pending, results, strict=True):
+                if isinstance(res, BaseException):
+                    failure = failure or res
+                    continue
+                done.append(p.n)
+                self.metrics.outputs.labels(p.type).inc()
+                if p.created > 0:
+                    self.metrics.latency.observe(max(0.0, now - p.created))
+            self.store.mark_published(done)
+            if failure is not None:
+                raise failure
 
     # --- web ---------------------------------------------------------------------------------
     async def _web(self) -> None:

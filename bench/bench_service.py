@@ -1,0 +1,285 @@
+"""Benchmark of the live service on a real broker, side by side in one run:
+
+1. sustained records/s through the whole service (decode, QC, detectors, site watch, SQLite journal
+   and outbox, manual QoS 1 acks, publishing) against a bare aiomqtt receive loop on the same broker
+   and the same queued messages (target: service >= 0.7 of the bare loop);
+2. gateway batches (100 records a message) through the whole service (target >= 100,000 records/s);
+3. observation-to-output latency at 1,000 records/s, end to end: from handing the triggering
+   record to the publisher to the subscriber receiving the event/forecast/alert (target p99 <= 50 ms).
+
+Each figure is the median of several runs. The broker is a private Mosquitto started here
+(max_queued_messages 0, so a backlog can be queued for a client that is away; other settings as
+shipped, e.g. max_inflight_messages 20); the embedded amqtt broker if there is no mosquitto binary.
+Messages are queued while the reader is away, then the reader connects and drains them, so the
+publisher does not compete with the reader for the CPU during the throughput runs.
+
+    .venv/bin/python bench/bench_service.py [--runs 3] [--records 20000]
+"""
+
+from __future__ import annotations
+
+import argparse
+import asyncio
+import contextlib
+import json
+import logging
+import signal
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+import uuid
+from pathlib import Path
+
+import aiomqtt
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT / "tests"))
+
+from broker import Mosquitto, have_mosquitto  # noqa: E402
+
+from frontwatch.config import NetworkConfig, load_network  # noqa: E402
+from frontwatch.obs import Observation  # noqa: E402
+from frontwatch.replay import read_observations  # noqa: E402
+from frontwatch.service.broker import EmbeddedBroker  # noqa: E402
+from frontwatch.service.publish import plan_messages, publish_messages  # noqa: E402
+from frontwatch.service.runner import Service  # noqa: E402
+from frontwatch.service.settings import ServiceSettings, parse_broker_url  # noqa: E402
+
+Msg = tuple[float, str, bytes, int]
+
+
+def load_scenario(tmp: Path) -> tuple[NetworkConfig, list[Observation]]:
+    """The demo scenario (with a gateway added to its network) or, without it, the test scenario."""
+    data = ROOT / "replay_data"
+    if (data / "network.toml").exists():
+        text = (data / "network.toml").read_text()
+        files = [data / "observations.csv"]
+    else:
+        import service_scenario
+
+        _, obs = service_scenario.write(tmp, days=6)
+        text, files = service_scenario.NETWORK_TOML.replace('gateways = ["gw1"]\n', ""), [obs]
+    net = tmp / "network.toml"
+    net.write_text(text.replace("[network]\n", '[network]\ngateways = ["gw"]\n', 1))
+    cfg = load_network(net)
+    return cfg, list(read_observations(files, cfg))
+
+
+def settings(url: str, prefix: str, client_id: str, db: Path | None) -> ServiceSettings:
+    return ServiceSettings(broker=parse_broker_url(url), prefix=prefix, client_id=client_id, db_path=db,
+                           http_port=None, snapshot_every_s=30.0)
+
+
+async def preload(url: str, client_id: str, prefix: str, msgs: list[Msg]) -> None:
+    """Make a persistent session for `client_id`, leave, and have the broker queue `msgs` for it."""
+    b = parse_broker_url(url)
+    async with aiomqtt.Client(b.host, b.port, identifier=client_id, clean_session=False) as c:
+        await c.subscribe(prefix + "/obs/+", qos=1)
+    await publish_messages(msgs, settings(url, prefix, prefix + "-pub", None))
+
+
+async def bare_loop(url: str, client_id: str, n: int) -> float:
+    """Seconds for a bare aiomqtt loop (QoS 1, automatic acks) to receive `n` queued messages."""
+    b = parse_broker_url(url)
+    t0 = time.perf_counter()
+    got = 0
+    async with aiomqtt.Client(b.host, b.port, identifier=client_id, clean_session=False) as c:
+        async for _m in c.messages:
+            got += 1
+            if got >= n:
+                break
+    return time.perf_counter() - t0
+
+
+async def service_drain(cfg: NetworkConfig, url: str, client_id: str, prefix: str, n: int, db: Path) -> float:
+    """Seconds for the whole service to take `n` queued messages and publish what they caused."""
+    svc = Service(cfg, settings(url, prefix, client_id, db))
+    stop = asyncio.Event()
+    t0 = time.perf_counter()
+    run = asyncio.create_task(svc.run(stop))
+    while svc.taken < n or svc.inbox or svc.store.unpublished(1):
+        if run.done():
+            run.result()
+        await asyncio.sleep(0.002)
+    dt = time.perf_counter() - t0
+    stop.set()
+    await run
+    return dt
+
+
+async def latency_run(net: Path, cfg: NetworkConfig, url: str, obs: list[Observation], rate: float,
+                      tmp: Path) -> tuple[list[float], list[float]]:
+    """(event latencies, all-output latencies) in seconds with records published at `rate`/s.
+
+    The service runs as its own process (`frontwatch run`), as deployed; this process publishes the
+    records and reads the outputs, timing both on the system's monotonic clock."""
+    prefix = "bench-" + uuid.uuid4().hex[:8]
+    msgs = plan_messages(obs, prefix)
+    b = parse_broker_url(url)
+    proc = subprocess.Popen([sys.executable, "-m", "frontwatch.cli", "run", "--config", str(net), "--broker", url,
+                             "--prefix", prefix, "--client-id", prefix + "-svc", "--db", str(tmp / f"{prefix}.sqlite"),
+                             "--http-port", "-1"], stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    sent: dict[tuple[str, float], float] = {}
+    first_at: dict[float, float] = {}
+    received: list[tuple[float, dict[str, object]]] = []
+    online = asyncio.Event()
+
+    async def listen() -> None:
+        async with aiomqtt.Client(b.host, b.port) as c:
+            await c.subscribe(f"{prefix}/status", qos=1)
+            for kind in ("events", "forecasts", "alerts", "courses"):
+                await c.subscribe(f"{prefix}/{kind}/+", qos=1)
+            async for m in c.messages:
+                if m.topic.value.endswith("/status"):
+                    if m.payload == b"online":
+                        online.set()
+                    continue
+                received.append((time.perf_counter(), json.loads(m.payload)))  # type: ignore[arg-type]
+
+    lt = asyncio.create_task(listen())
+    try:
+        await asyncio.wait_for(online.wait(), 30)
+        await asyncio.sleep(0.5)
+        async with aiomqtt.Client(b.host, b.port) as client:
+            t0 = time.perf_counter()
+            for i, (t, topic, payload, _n) in enumerate(msgs):
+                delay = t0 + i / rate - time.perf_counter()
+                if delay > 0:
+                    await asyncio.sleep(delay)
+                now = time.perf_counter()
+                sent[(topic.rsplit("/", 1)[1], t)] = now
+                first_at.setdefault(t, now)
+                await client.publish(topic, payload, qos=0)
+        await asyncio.sleep(1.0)
+    finally:
+        proc.send_signal(signal.SIGTERM)
+        proc.wait(20)
+        lt.cancel()
+    from frontwatch.timeutil import parse_time
+
+    ev, allout = [], []
+    for t_recv, out in received:
+        if "type" not in out:
+            key = (str(out["station"]), parse_time(str(out["detected_at"])))
+            if key in sent:
+                ev.append(t_recv - sent[key])
+                allout.append(t_recv - sent[key])
+        else:
+            t_data = parse_time(str(out["issued_at"]))
+            if t_data in first_at:
+                allout.append(t_recv - first_at[t_data])
+    return ev, allout
+
+
+def _local_hour_index(obs: list[Observation], cfg: NetworkConfig, hour: float) -> int:
+    from frontwatch.timeutil import LocalClock
+
+    clock = LocalClock(cfg.tz)
+    for i, o in enumerate(obs):
+        if clock.hour(o.time) >= hour and o.time - obs[0].time < 86400:
+            return i
+    return 0
+
+
+def _quiet_closed_socket_noise(loop: asyncio.AbstractEventLoop, ctx: dict[str, object]) -> None:
+    """aiomqtt may schedule a write registration for a socket that closes first; that is harmless."""
+    exc = ctx.get("exception")
+    if isinstance(exc, OSError) and "add_writer" in str(ctx.get("message", "")) + str(ctx.get("handle", "")):
+        return
+    loop.default_exception_handler(ctx)
+
+
+def p99(xs: list[float]) -> float:
+    if not xs:
+        return float("nan")
+    ys = sorted(xs)
+    return ys[min(len(ys) - 1, int(0.99 * len(ys)))]
+
+
+async def main(runs: int, records: int, latency_records: int, rate: float = 1000.0) -> None:
+    logging.basicConfig(level=logging.WARNING)
+    asyncio.get_running_loop().set_exception_handler(_quiet_closed_socket_noise)
+    tmp = Path(tempfile.mkdtemp(prefix="fw-bench-"))
+    cfg, all_obs = load_scenario(tmp)
+    obs = all_obs[:records]
+    # The latency runs start at 09:00 local on the first day, so the slice holds daytime passages.
+    day0 = _local_hour_index(all_obs, cfg, 9.0)
+    lat_obs = all_obs[day0:day0 + latency_records]
+    async with contextlib.AsyncExitStack() as stack:
+        if have_mosquitto():
+            mq = Mosquitto(tmp / "broker", extra=["max_queued_messages 0"], persistence=False)
+            mq.start()
+            stack.callback(mq.stop)
+            url, broker_name = mq.url, "private mosquitto (max_queued_messages 0, max_inflight_messages 20)"
+        else:
+            emb = await stack.enter_async_context(EmbeddedBroker())
+            url, broker_name = emb.url, "embedded amqtt (no mosquitto binary)"
+        print(f"broker: {broker_name}; network {cfg.network.name}: {len(cfg.stations)} stations, "
+              f"{len(cfg.sites)} sites; {len(obs):,} records; {runs} runs each")
+
+        core = []
+        for _ in range(runs):
+            from frontwatch.engine import Engine
+
+            eng = Engine(cfg)
+            per: list[float] = []
+            t_all = time.perf_counter()
+            for o in obs:
+                t1 = time.perf_counter()
+                eng.feed(o)
+                per.append(time.perf_counter() - t1)
+            core.append(len(obs) / (time.perf_counter() - t_all))
+        print(f"core alone (Engine.feed, no I/O): {statistics.median(core):,.0f} records/s (median); per record "
+              f"p50 {statistics.median(per) * 1e6:.0f} us, p99 {p99(per) * 1e3:.2f} ms, max {max(per) * 1e3:.1f} ms")
+
+        bare, full, gate = [], [], []
+        for r in range(runs):
+            prefix = "bench-" + uuid.uuid4().hex[:8]
+            msgs = plan_messages(obs, prefix)
+            await preload(url, prefix + "-bare", prefix, msgs)
+            bare.append(len(msgs) / await bare_loop(url, prefix + "-bare", len(msgs)))
+            prefix = "bench-" + uuid.uuid4().hex[:8]
+            msgs = plan_messages(obs, prefix)
+            await preload(url, prefix + "-svc", prefix, msgs)
+            full.append(len(obs) / await service_drain(cfg, url, prefix + "-svc", prefix, len(msgs),
+                                                       tmp / f"{prefix}.sqlite"))
+            prefix = "bench-" + uuid.uuid4().hex[:8]
+            gmsgs = plan_messages(obs, prefix, gateway="gw", batch=100)
+            await preload(url, prefix + "-gw", prefix, gmsgs)
+            gate.append(len(obs) / await service_drain(cfg, url, prefix + "-gw", prefix, len(gmsgs),
+                                                       tmp / f"{prefix}.sqlite"))
+            print(f"  run {r + 1}: bare loop {bare[-1]:,.0f} msg/s, service {full[-1]:,.0f} records/s, "
+                  f"gateway batches {gate[-1]:,.0f} records/s", flush=True)
+        mb, mf, mg = statistics.median(bare), statistics.median(full), statistics.median(gate)
+        print(f"bare aiomqtt receive loop  : {mb:12,.0f} messages/s (median)")
+        print(f"whole service, 1 rec/msg   : {mf:12,.0f} records/s (median)   ratio {mf / mb:.2f}  (target >= 0.70)")
+        print(f"whole service, gateway x100: {mg:12,.0f} records/s (median)   (target >= 100,000)")
+
+        ev_all: list[float] = []
+        p99s, p99_ev = [], []
+        for r in range(runs):
+            ev, allout = await latency_run(tmp / "network.toml", cfg, url, lat_obs, rate, tmp)
+            ev_all.extend(ev)
+            p99s.append(p99(allout))
+            p99_ev.append(p99(ev))
+            if not allout:
+                print(f"  latency run {r + 1}: no outputs in the slice")
+                continue
+            print(f"  latency run {r + 1}: {len(allout)} outputs, p50 {statistics.median(allout) * 1e3:.1f} ms, "
+                  f"p99 {p99s[-1] * 1e3:.1f} ms; {len(ev)} events, p99 {p99_ev[-1] * 1e3:.1f} ms", flush=True)
+        print(f"observation-to-output p99 at {rate:,.0f} records/s: {statistics.median(p99s or [float('nan')]) * 1e3:.1f} ms "
+              f"(median of {runs} runs; target <= 50 ms)")
+        print(f"observation-to-event  p99 at {rate:,.0f} records/s: {p99(ev_all) * 1e3:.1f} ms "
+              f"(all {len(ev_all)} events of the runs pooled)")
+
+
+if __name__ == "__main__":
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--runs", type=int, default=3)
+    ap.add_argument("--records", type=int, default=20000)
+    ap.add_argument("--latency-records", type=int, default=10000)
+    ap.add_argument("--rate", type=float, default=1000.0, help="records a second in the latency runs")
+    a = ap.parse_args()
+    asyncio.run(main(a.runs, a.records, a.latency_records, a.rate))

@@ -35,6 +35,7 @@ from .sim_observe import add_faults, observe, to_table
 from .sim_plan import BREEZE_KINDS, make_plan, parse_day
 from .sim_setting import Setting, make_setting, network_doc, network_toml
 from .sim_weather import MIN_PER_DAY, Clock, build_background
+from .timeutil import parse_time
 
 LABEL_KINDS = ("breeze_front", "land_breeze", "gust_front", "cold_front")
 
@@ -171,18 +172,25 @@ def generate(spec: ScenarioSpec | None = None) -> Scenario:
     fronts: list[dict[str, Any]] = []
     nuisances: list[dict[str, Any]] = []
     for p in plans:
+        day_breeze: list[dict[str, Any]] = []
         if is_light(p):
             nuisances += light_variable(fields, setting, p, clock, r_ev)
         if p.kind in BREEZE_KINDS:
             day = (date(1970, 1, 1) + timedelta(days=clock.start_local_days + p.index)).strftime("%Y%m%d")
-            lab, front, ends = breeze_front(fields, setting, p, clock, r_ev, spec.weak_inland, f"front-{day}")
-            labels += lab
+            day_breeze, front, ends = breeze_front(fields, setting, p, clock, r_ev, spec.weak_inland,
+                                                   f"front-{day}")
+            labels += day_breeze
             fronts.append(front)
             nuisances += ends
         if p.kind == "cold_front":
             labels += apply_cold_front(fields, setting, colds[p.index], clock, r_ev)
         if p.kind == "storm" or "gust_front" in p.extras:
-            labels += gust_front(fields, setting, p, clock, r_ev)
+            breeze_min = np.full(len(setting.stations), np.nan)
+            if day_breeze:
+                index = {s.id: i for i, s in enumerate(setting.stations)}
+                for b in day_breeze:
+                    breeze_min[index[b["station"]]] = (parse_time(b["time"]) - clock.start_epoch) / 60.0
+            labels += gust_front(fields, setting, p, clock, r_ev, breeze_min)
         if "shadows" in p.extras:
             nuisances += cloud_shadows(fields, setting, p, clock, r_ev)
         if "land_breeze" in p.extras:

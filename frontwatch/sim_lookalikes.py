@@ -90,8 +90,13 @@ def apply_cold_front(fields: Fields, setting: Setting, cf: ColdFront, clock: Clo
 
 
 def gust_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock,
-               rng: np.random.Generator) -> list[dict[str, Any]]:
-    """An afternoon thunderstorm outflow crossing part of the network."""
+               rng: np.random.Generator, breeze_min: np.ndarray | None = None) -> list[dict[str, Any]]:
+    """An afternoon thunderstorm outflow crossing part of the network.
+
+    `breeze_min` (scenario minute of the day's breeze passage per station, NaN if none): the outflow
+    is timed to reach no station from 90 min before to 45 min after its breeze passage, so that
+    neither hides the other (the storm is put later; a station it cannot miss is left out).
+    """
     n = len(setting.stations)
     from_sea = rng.random() < 0.5
     heading = (setting.inland_bearing_deg + rng.normal(0.0, 25.0)) if from_sea else rng.uniform(0.0, 360.0)
@@ -107,6 +112,13 @@ def gust_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock,
     hit = lateral < half_width
     h0 = rng.uniform(13.5, 18.0)
     arr = clock.minute_of(plan.index, h0) + (along - along[hit].min()) * 1000.0 / speed / 60.0
+    if breeze_min is not None:
+        b = np.where(np.isnan(breeze_min), -np.inf, breeze_min)
+        clash = hit & (arr > b - 90.0) & (arr < b + 45.0)
+        if clash.any():
+            arr = arr + min(float(np.max((b + 45.0 - arr)[clash])), 240.0)
+        hit &= ~((arr > b - 90.0) & (arr < b + 45.0))
+        hit &= arr < clock.minute_of(plan.index, 20.5)
     hit &= arr < clock.minutes - 5
     if not hit.any():
         return []

@@ -203,6 +203,11 @@ def test_cli_label_score_tune_end_to_end(scenario: tuple[Path, Path, Path], tmp_
     assert len(pngs) == len(proposed) and pngs[0].read_bytes()[:4] == b"\x89PNG"
     r = runner.invoke(app, ["label", str(obs), "--config", str(net), "--out", str(cand)])
     assert r.exit_code != 0 and "exists" in r.output
+    r = runner.invoke(app, ["label", str(obs), "--config", str(net), "--out", str(cand), "--force",
+                            "--kind", "breeze_front"])
+    assert r.exit_code == 0, r.output
+    only = read_labels(cand)
+    assert {lb.kind for lb in only} == {"breeze_front"} and len(only) < len(proposed)
 
     events = tmp_path / "events.jsonl"
     r = runner.invoke(app, ["replay", str(obs), "--config", str(net), "--events", str(events)])

@@ -124,6 +124,7 @@ def register(app: typer.Typer) -> None:
         out: Path = typer.Option(..., "--out", help="labels JSONL to write (status unreviewed)"),
         plots: Path | None = typer.Option(None, "--plots", help="write one PNG per candidate here"),
         force: bool = typer.Option(False, "--force", help="overwrite an existing labels file"),
+        kinds: list[str] = typer.Option([], "--kind", help="propose only events of this kind (repeatable)"),
     ) -> None:
         """Propose label candidates from a replay: the detector's events, each with a plot to review."""
         from ..errors import FrontwatchError
@@ -138,7 +139,14 @@ def register(app: typer.Typer) -> None:
             store, bad = build_store(files, cfg)
         except FrontwatchError as exc:
             raise _fail("label", str(exc)) from None
+        from ..events import KINDS
+
+        bad_kinds = sorted(set(kinds) - set(KINDS))
+        if bad_kinds:
+            raise _fail("label", f"unknown kind(s) {', '.join(bad_kinds)} (one of {', '.join(KINDS)})")
         events = run_detector(apply_qc(store, cfg), cfg)  # the plots below show the raw records
+        if kinds:
+            events = [e for e in events if e.kind in kinds]
         cands = [Label(e.station, e.kind, e.onset,
                        f"event {e.id}, confidence {e.confidence:.2f}; set status to confirmed or rejected "
                        "(and fix kind/time if needed)", "unreviewed") for e in events]
@@ -151,7 +159,7 @@ def register(app: typer.Typer) -> None:
                 fig = panel_figure(store, e.station, e.onset, cfg.tz,
                                    [(e.onset, f"{e.kind} onset", "#c0392b"), (e.detected_at, "detected", "#e67e22")])
                 if fig is not None:
-                    fig.savefig(plots / f"{e.id}.png", dpi=80, bbox_inches="tight")
+                    fig.savefig(plots / f"{e.id}.png", dpi=80)
                     plt.close(fig)
         typer.echo(f"{len(cands)} candidates from {len(store):,} records ({bad} bad records skipped) -> {out}"
                    + (f"; plots in {plots}/<event id>.png" if plots else ""))

@@ -133,3 +133,63 @@ def test_page_draws_network_and_follows_the_stream(browser: Any) -> None:
         assert severe == []
     finally:
         srv.__exit__(None, None, None)
+
+
+DEMO = Path(__file__).resolve().parents[1] / "replay_data"
+
+
+@pytest.mark.skipif(not (DEMO / "observations.csv").exists(), reason="demo scenario replay_data/ not present")
+def test_page_follows_the_core_over_a_replay(browser: Any) -> None:
+    """The real core's outputs (frontwatch.engine over the demo file) reach the page over the stream:
+    every passage the core found is listed, each site card shows the core's latest alert state."""
+    from collections import Counter
+
+    from frontwatch.config import load_network
+    from frontwatch.engine import Engine
+    from frontwatch.replay import read_observations
+
+    cfg = load_network(DEMO / "network.toml")
+    eng = Engine(cfg)
+    hub = DashboardHub(cfg)
+    records = read_observations([DEMO / "observations.csv"], cfg)
+    js = browser.execute_script
+
+    def step(n: int) -> list[dict[str, Any]]:
+        """Feed n records as the service does; return the outputs."""
+        outs = []
+        for o in records:
+            before = Counter(eng.stats.qc)
+            produced = eng.feed(o)
+            hub.observe(o, list((eng.stats.qc - before).elements()))
+            for out in produced:
+                d = out.to_dict()
+                hub.emit(d)
+                outs.append(d)
+            n -= 1
+            if n == 0:
+                break
+        return outs
+
+    with Server(make_app(hub, CollectorRegistry())) as srv:
+        browser.get(srv.url)
+        wait_for(lambda: js("return window.frontwatch && window.frontwatch.es && window.frontwatch.es.readyState === 1"),
+                 "the event stream to open")
+        seen: list[dict[str, Any]] = []
+        while not (any(d.get("type") is None and d["kind"] == "breeze_front" for d in seen)
+                   and any(d.get("type") == "alert" for d in seen)):
+            got: list[dict[str, Any]] = []
+            srv.call(lambda: got.extend(step(900)))  # 100 data minutes of 9 stations
+            seen += got
+            assert hub.seq < 20_000, "the replay's first day went by without a breeze front and an alert"
+        events = [d["id"] for d in seen if "type" not in d]
+        wait_for(lambda: js("return window.frontwatch.events.map(e => e.id)") == events, "every passage on the page")
+        for d in events:
+            assert browser.find_elements("css selector", f"#passages li[data-event='{d}']")
+        for site in cfg.sites:
+            alert = hub.site_state.get(site.id)
+            if alert is None:
+                continue
+            state_el = f"#sites article[data-site='{site.id}'] .state"
+            wait_for(lambda el=state_el, a=alert: browser.find_element("css selector", el).text
+                     == a["state"].replace("_", " "), f"the {site.id} card state")
+        assert "official warnings" in browser.find_element("id", "caution").text

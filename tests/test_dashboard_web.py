@@ -131,3 +131,35 @@ def test_token_guards_every_data_route() -> None:
         assert httpx.get(srv.url + "api/state", params={"token": "s3cret-token"}).status_code == 200
         assert httpx.get(srv.url + "metrics", headers={"Authorization": "Bearer s3cret-token"}).status_code == 200
         assert httpx.get(srv.url, params={"token": "s3cret-token"}).status_code == 200
+
+
+def test_close_ends_open_streams_so_the_server_can_stop() -> None:
+    import threading
+    import time
+
+    hub = DashboardHub(network(2))
+    srv = Server(make_app(hub, CollectorRegistry()))
+    srv.server.config.timeout_graceful_shutdown = None  # as the service runs it: wait for connections
+    with srv:
+        got: list[dict[str, Any]] = []
+        errors: list[BaseException] = []
+
+        def reader() -> None:
+            try:
+                got.extend(read_sse(srv.url + "api/stream", 5))
+            except BaseException as exc:
+                errors.append(exc)
+
+        t = threading.Thread(target=reader)
+        t.start()
+        time.sleep(0.5)
+        assert hub.clients == 1
+        srv.call(hub.emit, {"type": "alert", "site": "dune-green", "state": "clear", "seq": 1})
+        srv.call(hub.close)
+        t.join(5)
+        assert not t.is_alive(), "the stream did not end on close()"
+        assert not errors, errors
+        assert [m["event"] for m in got] == ["alert"]  # what was sent before the close still arrived
+        assert httpx.get(srv.url + "api/stream").status_code == 503
+        t0 = time.perf_counter()
+    assert time.perf_counter() - t0 < 3 and not srv.thread.is_alive()

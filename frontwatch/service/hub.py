@@ -193,6 +193,7 @@ class DashboardHub:
         self.data_time: float | None = None  # newest observation time seen (event time)
         self.ignored = 0  # records/outputs for unknown stations or sites
         self.clients = 0  # open event streams
+        self.closed = False  # set by close(): open event streams end, so the web server can stop
         self._lock = threading.Lock()
         self._waiters: set[tuple[asyncio.AbstractEventLoop, asyncio.Event]] = set()
 
@@ -255,6 +256,16 @@ class DashboardHub:
         with self._lock:
             self.seq += 1
             self.feed.append((self.seq, kind, data))
+        self._wake()
+
+    def close(self) -> None:
+        """End every open event stream (call before stopping the web server: a stream that never
+        ends would keep a graceful shutdown waiting for ever). Browsers reconnect and catch up."""
+        self.closed = True
+        self._wake()
+
+    def _wake(self) -> None:
+        with self._lock:
             waiters = list(self._waiters)
         try:
             here: asyncio.AbstractEventLoop | None = asyncio.get_running_loop()

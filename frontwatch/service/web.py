@@ -80,6 +80,8 @@ def make_app(hub: DashboardHub, registry: CollectorRegistry, token: str | None =
         return Response(dumps(doc), media_type="application/json")
 
     async def stream(request: Request) -> Response:
+        if hub.closed:
+            return Response("shutting down", status_code=503, headers={"Retry-After": "2"})
         # Resume after Last-Event-ID (a reconnect) or ?since= (the seq of the page's /api/state load);
         # with neither, send everything still held.
         last = request.headers.get("last-event-id") or request.query_params.get("since") or "0"
@@ -105,8 +107,8 @@ def make_app(hub: DashboardHub, registry: CollectorRegistry, token: str | None =
                         yield "".join(f"id: {seq}\nevent: {kind}\ndata: {data}\n\n" for seq, kind, data in items)
                         await asyncio.sleep(0)
                         continue
-                    if await request.is_disconnected():
-                        return
+                    if hub.closed or await request.is_disconnected():
+                        return  # closed: what was sent before close() has gone out first
                     await hub.wait(5.0)
                     if not hub.since(cursor, 1):
                         yield ": keepalive\n\n"

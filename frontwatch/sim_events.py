@@ -20,7 +20,7 @@ import numpy as np
 
 from .sim_plan import DayPlan
 from .sim_setting import Setting, unit
-from .sim_weather import MIN_PER_DAY, Clock, Fields, wind_vector
+from .sim_weather import Clock, Fields, wind_vector
 
 G = 9.80665  # standard gravity, m/s2
 THETA = 300.0  # K, reference potential temperature
@@ -64,7 +64,7 @@ def front_distance(setting: Setting, shore_km: np.ndarray, along_km: np.ndarray,
     return shore_km * math.cos(math.radians(dev_deg)) + (along_km - a_ref) * s
 
 
-def _track(rng: np.random.Generator, m0: float, m_end: float, early: float, late: float,
+def _track(m0: float, m_end: float, early: float, late: float,
            acc_h: float, stall_km: float | None) -> FrontTrack:
     minutes = np.arange(math.floor(m0), math.ceil(m_end) + 1, dtype=float)
     minutes[0] = m0
@@ -122,7 +122,7 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
     stall_km = None
     if plan.kind == "breeze_stall" and len(dist) > 1:
         stall_km = float(rng.uniform(0.35, 0.75) * dist.max())
-    track = _track(rng, m0, m_dissolve, early, late, acc_h, stall_km)
+    track = _track(m0, m_dissolve, early, late, acc_h, stall_km)
     arr = track.arrival(dist)
     site_arr = track.arrival(site_dist)
 
@@ -293,4 +293,4 @@ def land_breeze(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock,
     return labels
 
 
-__all__ = ["MIN_PER_DAY", "FrontTrack", "breeze_front", "front_distance", "land_breeze", "smoothstep"]
+__all__ = ["FrontTrack", "breeze_front", "front_distance", "land_breeze", "smoothstep"]

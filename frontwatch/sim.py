@@ -65,6 +65,11 @@ class ScenarioSpec:
             raise ValueError("noise_scale and fault_rate must not be negative")
         for d in self.plan or ():
             parse_day(d)
+        if self.start_date is not None:
+            try:
+                date.fromisoformat(self.start_date)
+            except ValueError as exc:
+                raise ValueError(f"start_date {self.start_date!r} is not a date YYYY-MM-DD: {exc}") from None
 
 
 PRESETS: dict[str, dict[str, Any]] = {

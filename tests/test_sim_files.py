@@ -143,6 +143,8 @@ def test_bad_spec_is_refused_with_a_reason():
         preset("windy")
     with pytest.raises(ValueError, match="hemisphere"):
         generate(ScenarioSpec(hemisphere="east"))
+    with pytest.raises(ValueError, match="start_date '2027-13-01'"):
+        generate(ScenarioSpec(start_date="2027-13-01"))
 
 
 def _app() -> typer.Typer:

@@ -633,10 +633,22 @@ function flush() {
   else if (S.traceDirty) setTimeout(() => schedule(), 1000);
   drawClock();
 }
-function drawClock() {
-  document.getElementById("data-time").textContent = S.dataTime === null ? "no data yet" : localHM(S.dataTime) +
-    (S.tzOffsetMin === null ? " UTC" : " local");
+// How fast data time moves against this screen's clock (a replay runs many times real time).
+const pace = { samples: [], ratio: null };
+function samplePace() {
+  const now = performance.now();
+  if (S.dataTime === null) return;
+  pace.samples.push([now, S.dataTime]);
+  while (pace.samples.length > 2 && now - pace.samples[1][0] > 20000) pace.samples.shift();
+  const [w0, d0] = pace.samples[0];
+  pace.ratio = now - w0 > 8000 ? (S.dataTime - d0) / ((now - w0) / 1000) : null;
 }
+function drawClock() {
+  let txt = S.dataTime === null ? "no data yet" : localHM(S.dataTime) + (S.tzOffsetMin === null ? " UTC" : " local");
+  if (pace.ratio !== null && pace.ratio > 1.5) txt += ` · replay, about ${Math.round(pace.ratio)}× real time`;
+  document.getElementById("data-time").textContent = txt;
+}
+setInterval(() => { samplePace(); drawClock(); }, 2000);
 
 // ---------------------------------------------------------------- the stream
 function onObs(o) {

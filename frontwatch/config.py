@@ -34,6 +34,11 @@ class NetworkInfo(_Strict):
             raise ValueError("give utc_offset_hours or timezone, not both")
         if self.hemisphere not in (None, "north", "south"):
             raise ValueError("hemisphere must be 'north' or 'south'")
+        if self.timezone:
+            try:
+                make_tz(None, self.timezone)  # an unknown zone is an error here, naming the key
+            except ConfigError as exc:
+                raise ValueError(f"timezone: {exc}") from None
         return self
 
 
@@ -101,6 +106,11 @@ class DetectorSettings(_Strict):
     # -dT + dTd (degC) of a breeze front: marine air is cooler and moister (Miller et al. 2003 report
     # drops to -2.5 degC and mixing ratio +1-2 g/kg; 0.8 is a weak inland front, from memory)
     breeze_min_marine_index_c: float = Field(0.8, ge=0)
+    # Summed significance (noise units, each channel capped at 6) of the cooling, moistening and
+    # onshore shifts needed to call a breeze front; a weak change waits until it has persisted.
+    breeze_min_evidence: float = Field(10.0, ge=0)
+    # Minutes within which T, Td and the onshore wind must each change for one front (common practice)
+    coherence_min: float = Field(6.0, ge=1, le=30)
     day_start_h: float = Field(8.0, ge=0, le=24)  # local hours when a breeze front may start
     day_end_h: float = Field(20.0, ge=0, le=24)
     gust_front_pressure_jump_hpa: float = Field(1.2, gt=0)  # Engerer et al. 2008: 2-4.5 hPa jumps
@@ -130,12 +140,12 @@ class InputSettings(_Strict):
 
 
 class NetworkConfig(_Strict):
-    network: NetworkInfo = Field(default_factory=NetworkInfo)
+    network: NetworkInfo = Field(default_factory=lambda: NetworkInfo.model_validate({}))
     stations: list[StationConfig]
     sites: list[SiteConfig] = Field(default_factory=list)
-    detector: DetectorSettings = Field(default_factory=DetectorSettings)
-    qc: QCSettings = Field(default_factory=QCSettings)
-    input: InputSettings = Field(default_factory=InputSettings)
+    detector: DetectorSettings = Field(default_factory=lambda: DetectorSettings.model_validate({}))
+    qc: QCSettings = Field(default_factory=lambda: QCSettings.model_validate({}))
+    input: InputSettings = Field(default_factory=lambda: InputSettings.model_validate({}))
     source: str = "<memory>"  # where it was read from (set by load_network)
 
     @model_validator(mode="after")
@@ -220,6 +230,8 @@ def load_network(path: str | Path) -> NetworkConfig:
         text = p.read_text(encoding="utf-8")
     except OSError as exc:
         raise ConfigError(f"{p}: cannot read network file: {exc.strerror or exc}") from None
+    except UnicodeDecodeError as exc:
+        raise ConfigError(f"{p}: not UTF-8 text (byte {exc.start}): a network file is TOML in UTF-8") from None
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:

@@ -21,7 +21,7 @@ import numpy as np
 # channel order: temperature, dewpoint, onshore wind component, alongshore component, pressure
 CHANNELS = ("temp", "dewpoint", "onshore", "alongshore", "pressure")
 FLOORS = np.array([0.06, 0.08, 0.25, 0.25, 0.05])  # smallest credible noise per channel (sensor resolution)
-START_FRACTION = 0.25
+START_FRACTION = 0.15
 
 
 @dataclass(frozen=True, slots=True)
@@ -33,6 +33,7 @@ class Split:
     pre_mean: np.ndarray
     slope: np.ndarray  # per-minute drift removed (per channel; zero for wind)
     detrended: np.ndarray  # the window with that drift removed, NaN kept
+    channel_split: np.ndarray  # per channel, the index of its own best split (its own change time)
 
 
 def _detrend_slopes(t: np.ndarray, x: np.ndarray, upto: int) -> np.ndarray:
@@ -41,7 +42,7 @@ def _detrend_slopes(t: np.ndarray, x: np.ndarray, upto: int) -> np.ndarray:
     if upto < 8:
         return slopes
     tm = t[:upto] / 60.0
-    for c in (0, 1, 4):
+    for c, cap in ((0, 0.06), (1, 0.03), (4, 0.01)):
         col = x[:upto, c]
         ok = ~np.isnan(col)
         if ok.sum() < 8:
@@ -51,8 +52,9 @@ def _detrend_slopes(t: np.ndarray, x: np.ndarray, upto: int) -> np.ndarray:
         tc = tt - tt.mean()
         den = float(np.dot(tc, tc))
         if den > 0:
-            # clamp: an extrapolated drift must stay physical (2 K per 10 min at most)
-            slopes[c] = float(np.clip(np.dot(tc, yy - yy.mean()) / den, -0.2, 0.2))
+            # Clamp to diurnal rates (per minute: T 3.6 K/h, Td 1.8 K/h, p 0.6 hPa/h; common practice):
+            # a steeper 'trend' is a change, and extrapolating it would hide the next one.
+            slopes[c] = float(np.clip(np.dot(tc, yy - yy.mean()) / den, -cap, cap))
     return slopes
 
 
@@ -105,6 +107,7 @@ def best_split(
     z2 = np.where(ok & np.isfinite(z2), z2, 0.0)
     s = z2 @ weights
     k = int(np.argmax(s))
+    channel_split = js[np.argmax(z2, axis=0)]
     if s[k] <= 0:
         return None
     j = int(js[k])
@@ -124,4 +127,4 @@ def best_split(
         # the change must be under way at the onset sample itself
         while onset < j and frac[onset] < START_FRACTION:
             onset += 1
-    return Split(onset, j, float(np.sqrt(s[k])), sigma, pre_mean, slope, xd)
+    return Split(onset, j, float(np.sqrt(s[k])), sigma, pre_mean, slope, xd, channel_split)

@@ -40,6 +40,9 @@ class Signature:
     change_offset_deg: float  # |direction the added wind (after - before vector) blows from - onshore|
     change_speed: float  # size of that added wind vector, m/s
     before_offset_deg: float
+    z_temp: float  # significance of the shift since onset, noise units (negative = cooler)
+    z_dewpoint: float
+    z_onshore: float
     temp_change: float
     temp_rate: float  # degC/min over the last two minutes (negative = still falling)
     dewpoint_change: float
@@ -47,6 +50,8 @@ class Signature:
     pressure_jump: float  # max rise of pressure after onset vs before
     gust_after: float
     rain_after: float
+    depression_after: float = float("nan")  # T - Td of the recent air, degC (0 = saturated)
+    change_times_min: tuple[float, ...] = ()  # each of T, Td, onshore wind: own change time vs onset
 
 
 @dataclass(frozen=True, slots=True)
@@ -54,6 +59,8 @@ class Decision:
     kind: str | None  # None: nothing to report
     confidence: float
     wait: bool  # True: not yet decidable, look again next minute
+    evidence: float = 0.0  # how strong the signature was (comparable within a kind)
+    note: str = ""  # for a non-call: which breeze-front conditions failed (near-miss reports, debugging)
 
 
 def _nz(x: float, default: float = 0.0) -> float:
@@ -64,7 +71,7 @@ def _logistic(x: float) -> float:
     return 1.0 / (1.0 + math.exp(-x))
 
 
-def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bool) -> Decision:
+def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bool, averaging: int = 1) -> Decision:
     dT = _nz(sig.temp_change)
     dTd = _nz(sig.dewpoint_change)
     dp = _nz(sig.pressure_jump)
@@ -72,6 +79,9 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     rain = _nz(sig.rain_after)
     rate = _nz(sig.temp_rate)
     has_moist = sig.dewpoint_change == sig.dewpoint_change
+    # Near saturation the dewpoint cannot rise past the falling temperature: marine air that arrives
+    # saturated shows as a vanishing dewpoint depression instead (common practice).
+    saturated = sig.depression_after == sig.depression_after and sig.depression_after <= 1.0
     calm_before = not sig.speed_before >= s.calm_ms
     calm_after = not sig.speed_after >= s.calm_ms
 
@@ -91,7 +101,7 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     daytime = s.day_start_h <= sig.local_hour < s.day_end_h
 
     # 2. Synoptic cold front: drier air behind a shift.
-    if has_moist and dTd <= -s.cold_front_dewpoint_fall_c and (turned or dp >= 0.8) and \
+    if has_moist and dTd <= -s.cold_front_dewpoint_fall_c and (turned or dp >= 0.8) and not saturated and \
             not (not daytime and sig.after_offset_deg > 180 - halfwidth and sig.speed_after <= s.land_breeze_max_ms
                  and dTd > -2 * s.cold_front_dewpoint_fall_c and dp < 0.8):
         conf = _logistic(-dTd / s.cold_front_dewpoint_fall_c + dp - 0.5)
@@ -117,21 +127,42 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # The latest wind must itself already carry some onshore flow: a slackening offshore wind also adds
     # an 'onshore' vector, but it still blows from the land.
     turning_onshore = sig.change_offset_deg <= 0.75 * halfwidth and sig.change_speed >= 1.5 and \
-        _nz(sig.onshore_after) - _nz(sig.onshore_before) >= 1.0 and _nz(sig.onshore_after) >= 0.5 and \
-        sig.after_offset_deg <= halfwidth + 20.0
-    came_onshore = calm_before or sig.before_offset_deg > halfwidth or \
-        (sig.before_offset_deg > 0.5 * halfwidth and sig.onshore_after - sig.onshore_before >= 1.5)
-    marine = -dT + dTd if has_moist else -2.0 * dT
-    thermal = marine >= s.breeze_min_marine_index_c and dT <= 0.1 and \
-        (dTd >= s.breeze_min_moisture_rise_c if has_moist else dT <= -s.breeze_min_temp_drop_c)
-    if daytime and thermal:
-        if came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0)):
-            margin = marine / s.breeze_min_marine_index_c + (halfwidth - sig.after_offset_deg) / halfwidth \
-                + sig.strength / 8.0
-            return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 2.0))), False)
-        if can_wait:
-            # A smoothed vane, or a wind that has not settled yet: give it a few more minutes.
-            return Decision(None, 0.0, True)
+        _nz(sig.onshore_after) - _nz(sig.onshore_before) >= 1.0 and _nz(sig.onshore_after) >= 1.0 and \
+        sig.after_offset_deg <= halfwidth + 20.0 and sig.before_offset_deg - sig.after_offset_deg >= 30.0
+    # From outside the sector or from calm: an onshore wind that merely freshens is no front
+    # (an onshore synoptic wind leaves no distinct front; Arritt 1993, from memory).
+    came_onshore = calm_before or sig.before_offset_deg > halfwidth
+    dry_measure = not has_moist or (saturated and dTd > -2.0)
+    marine = -2.0 * dT if dry_measure else -dT + dTd
+    # A clear onshore turn is itself strong evidence of the front: then the marine air need only
+    # have begun to show (half the usual magnitudes), as long as each shift is beyond the noise.
+    clear_turn = came_onshore and sig.before_offset_deg - sig.after_offset_deg >= 60.0 and sig.z_onshore >= 4.0
+    f = 0.5 if clear_turn else 1.0
+    thermal = marine >= f * s.breeze_min_marine_index_c and dT <= 0.1 and \
+        (dT <= -f * s.breeze_min_temp_drop_c if dry_measure else dTd >= f * s.breeze_min_moisture_rise_c)
+    # Evidence: the three shifts' significance since onset, each capped so one channel cannot carry it.
+    evidence = min(6.0, max(0.0, -sig.z_temp)) * (2.0 if dry_measure else 1.0) + \
+        (0.0 if dry_measure else min(6.0, max(0.0, sig.z_dewpoint))) + min(6.0, max(0.0, sig.z_onshore))
+    # A front changes everything at once; a cloud shadow, a moisture drift and a wind wobble that
+    # happen to overlap change at different times. The vane of a running-mean station lags by
+    # about half its averaging time.
+    times = sig.change_times_min
+    coherent = sig.z_temp <= -1.5 and (dry_measure or sig.z_dewpoint >= 1.5)
+    if coherent and len(times) == 3:
+        lag = s.coherence_min + 0.5 * max(0, averaging - 1)
+        coherent = abs(times[2] - times[0]) <= lag and (dry_measure or abs(times[1] - times[0]) <= s.coherence_min)
+    wind_ok = came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))
+    failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
+                                    ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence)) if not ok]
+    if not failed:
+        margin = marine / s.breeze_min_marine_index_c + (halfwidth - sig.after_offset_deg) / halfwidth \
+            + evidence / s.breeze_min_evidence
+        return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 2.0))), False, evidence)
+    note = "breeze front? not " + ", ".join(failed)
+    if daytime and thermal and can_wait:
+        # The right kind of air but the wind or the evidence is not there yet (a smoothed vane, a
+        # turn in progress, a weak change that must persist): look again next minute.
+        return Decision(None, 0.0, True, evidence, note)
 
     # 5. A clear turn of a sustained wind that fits no other kind.
     sustained = sig.speed_before >= 2.5 and sig.speed_after >= 2.5
@@ -140,4 +171,4 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
             return Decision(None, 0.0, True)
         conf = _logistic((sig.turn_deg - 45.0) / 30.0 + sig.strength / 10.0 - 1.0)
         return Decision("wind_shift", min(0.95, max(0.4, conf)), False)
-    return Decision(None, 0.0, can_wait and sig.minutes_after < 4)
+    return Decision(None, 0.0, can_wait and sig.minutes_after < 4, 0.0, note)

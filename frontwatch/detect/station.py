@@ -60,6 +60,7 @@ class StationDetector:
         self.pending = False
         self.quiet_until = -1e18
         self.last_onset: dict[str, float] = {}  # kind -> onset of the last event of that kind
+        self.last_evidence: dict[str, float] = {}  # kind -> its evidence (a much stronger one may follow)
         if station is not None:
             o = station.onshore_from_deg * RAD
             self._sin_o, self._cos_o = math.sin(o), math.cos(o)
@@ -124,7 +125,7 @@ class StationDetector:
             return None
         sig = self._signature(arr, sp, o, now)
         can_wait = now - t_o < st.max_wait_min * 60.0
-        dec = classify(sig, st, self.halfwidth, can_wait)
+        dec = classify(sig, st, self.halfwidth, can_wait, self.averaging)
         if dec.kind is None:
             self.pending = bool(dec.wait)
             return None
@@ -134,9 +135,11 @@ class StationDetector:
         quiet = 10.0 if dec.kind == "wind_shift" else float(st.refractory_min)
         self.quiet_until = t_o + quiet * 60.0
         repeat = st.repeat_min if dec.kind in ("breeze_front", "land_breeze") else st.refractory_min
-        if t_o - self.last_onset.get(dec.kind, -1e18) < repeat * 60:
+        if t_o - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
+                dec.evidence <= 1.5 * self.last_evidence.get(dec.kind, 0.0):
             return None  # the same regime going on (a wobble of the onshore wind), not a new passage
         self.last_onset[dec.kind] = float(t_o)
+        self.last_evidence[dec.kind] = dec.evidence
         conf = dec.confidence * (1.0 - math.exp(-sp.strength / st.min_score))
         return PassageEvent(
             station=self.sid, kind=dec.kind, onset=float(t_o), detected_at=float(now),
@@ -162,6 +165,12 @@ class StationDetector:
         with np.errstate(all="ignore"):
             pre = np.nanmean(xd[pre_lo:o], axis=0) if o > pre_lo else np.full(5, NAN)
             rec = np.nanmean(xd[rec_lo:], axis=0)
+            # Significance of each channel's shift over the whole 'after' so far: a change that
+            # persists gains evidence minute by minute, a wobble that reverts loses it.
+            post = np.nanmean(xd[o:], axis=0)
+            n_pre = np.sum(np.isfinite(xd[pre_lo:o]), axis=0)
+            n_post = np.sum(np.isfinite(xd[o:]), axis=0)
+            z = (post - pre) / sp.sigma * np.sqrt(n_pre * n_post / np.maximum(n_pre + n_post, 1))
             u0 = _nanmean(arr[wind_lo:o, _U])
             v0 = _nanmean(arr[wind_lo:o, _V])
             ur = _nanmean(arr[rec_lo:, _U])
@@ -211,14 +220,18 @@ class StationDetector:
             after_offset_deg=_angle(d1, onshore) if d1 == d1 else NAN,
             change_offset_deg=_angle(dchg, onshore) if dchg == dchg else 180.0, change_speed=_nz0(dspd),
             before_offset_deg=_angle(d0, onshore) if d0 == d0 else 180.0,
+            z_temp=_nz0(float(z[0])), z_dewpoint=_nz0(float(z[1])), z_onshore=_nz0(float(z[2])),
             temp_change=float(rec[0] - pre[0]), temp_rate=rate, dewpoint_change=float(rec[1] - pre[1]),
             pressure_change=float(rec[4] - pre[4]), pressure_jump=pj, gust_after=gust, rain_after=rain,
+            depression_after=_nanmean(arr[rec_lo:, _TC] - arr[rec_lo:, _TD]),
+            # minutes between the temperature's, the dewpoint's and the onshore wind's own change times
+            change_times_min=tuple(float((t[i] - t_o) / 60.0) for i in sp.channel_split[:3]),
         )
 
     # ------------------------------------------------------------------ state
     def snapshot(self) -> dict[str, Any]:
         return {"ring": [[None if v != v else v for v in row] for row in self.ring], "gate": self.gate.state(),
-                "pending": bool(self.pending), "quiet_until": self.quiet_until, "last_onset": dict(self.last_onset)}
+                "pending": bool(self.pending), "quiet_until": self.quiet_until, "last_onset": dict(self.last_onset), "last_evidence": dict(self.last_evidence)}
 
     def restore(self, snap: dict[str, Any]) -> None:
         self.ring = deque((tuple(NAN if v is None else float(v) for v in row) for row in snap["ring"]),
@@ -228,6 +241,7 @@ class StationDetector:
         self.pending = bool(snap["pending"])
         self.quiet_until = float(snap["quiet_until"])
         self.last_onset = {k: float(v) for k, v in snap["last_onset"].items()}
+        self.last_evidence = {k: float(v) for k, v in snap["last_evidence"].items()}
 
 
 def _nanmean(a: np.ndarray) -> float:

@@ -18,11 +18,12 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-import yaml
 from prometheus_client import generate_latest
 
 from frontwatch.config import load_network
 from frontwatch.service.metrics import ServiceMetrics
+
+yaml = pytest.importorskip("yaml", reason="PyYAML (installed with amqtt) parses the YAML files")
 
 ROOT = Path(__file__).resolve().parents[1]
 DEPLOY = ROOT / "deploy"

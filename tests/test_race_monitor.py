@@ -44,6 +44,33 @@ def test_windows_against_scipy_circular_statistics() -> None:
         assert w.spread_deg == pytest.approx(math.degrees(stats.circstd(sel)), rel=0.03, abs=0.05)
 
 
+def test_monitor_windows_equal_the_batch_computation() -> None:
+    """The monitor's running per-minute sums against window_stat over the raw records (every 20 s,
+    with calms and missing directions), at each minute."""
+    rng = np.random.default_rng(9)
+    mon = CourseMonitor("c", 75.0, 80.0, 60.0)
+    recs: list[tuple[float, float, float]] = []
+    for i in range(3 * 40):
+        t = T0 + 20.0 * i
+        if i % 3 == 0 and i:
+            for k in (2, 5, 10):
+                w = mon.window(t, k)
+                ref = window_stat([r for r in recs if r[0] < t], t, k)
+                assert w.n == ref.n
+                for a, b in ((w.dir_deg, ref.dir_deg), (w.spread_deg, ref.spread_deg), (w.speed_ms, ref.speed_ms)):
+                    assert (a is None) == (b is None)
+                    if a is not None and b is not None:
+                        assert a == pytest.approx(b, abs=1e-9)
+        d = float((60.0 + rng.normal(0, 20)) % 360)
+        sp = float(abs(rng.normal(3, 1)))
+        if i % 17 == 0:
+            d, sp = math.nan, 0.0  # calm
+        if i % 23 == 0:
+            d = math.nan  # direction missing at speed
+        mon.add(t, d, sp)
+        recs.append((t, d, sp))
+
+
 def test_vector_mean_weights_by_speed() -> None:
     # 1 m/s from 0 deg and 3 m/s from 90 deg: mean vector from atan2(3, 1) = 71.57 deg.
     smp = [(T0, 0.0, 1.0), (T0 + 60, 90.0, 3.0)]

@@ -12,7 +12,7 @@ import numpy as np
 import pytest
 
 from frontwatch.network.fit import ONSET_SIGMA_S, Prior, fit_front
-from frontwatch.network.prior import DEPTH_M, FROUDE_K, PassageFacts, density_prior
+from frontwatch.network.prior import DEPTH_M, EARLY_FACTOR, FROUDE_K, PassageFacts, density_prior
 
 
 def test_hand_worked_right_angle_three_stations() -> None:
@@ -89,16 +89,17 @@ def test_single_station_prior_prediction() -> None:
 
 def test_density_prior_matches_domain_check_value() -> None:
     """DOMAIN.md: delta theta 3 K, theta 300 K, h 500 m -> sqrt(g'h) = 7.00 m/s; the prior uses
-    U = k sqrt(g'h) with k = FROUDE_K and then subtracts 0.6 x the opposing wind (Simpson & Britter 1980)."""
+    U = k sqrt(g'h) with k = FROUDE_K, subtracts 0.6 x the opposing wind (Simpson & Britter 1980), and
+    takes EARLY_FACTOR of that for a young front."""
     assert DEPTH_M == 500.0
     facts = PassageFacts(shore_normal_to_deg=270.0, temp_change_c=-3.0, temp_after_c=300.0 - 273.15,
                          dir_before_deg=None, speed_before_ms=None)
     p = density_prior([facts])
-    assert p.speed_ms == pytest.approx(FROUDE_K * 7.00, abs=0.01)
+    assert p.speed_ms == pytest.approx(EARLY_FACTOR * FROUDE_K * 7.00, abs=0.01)
     assert p.heading_deg == pytest.approx(270.0)
     # A 2 m/s wind from the west opposes a front moving west: 0.6 x 2 = 1.2 m/s slower.
     opp = PassageFacts(270.0, -3.0, 300.0 - 273.15, dir_before_deg=270.0, speed_before_ms=2.0)
-    assert density_prior([opp]).speed_ms == pytest.approx(FROUDE_K * 7.00 - 1.2, abs=0.01)
+    assert density_prior([opp]).speed_ms == pytest.approx(EARLY_FACTOR * (FROUDE_K * 7.00 - 1.2), abs=0.01)
     # A following wind (from the east) is not applied (the paper's result is for opposing flow).
     fol = PassageFacts(270.0, -3.0, 300.0 - 273.15, dir_before_deg=90.0, speed_before_ms=2.0)
-    assert density_prior([fol]).speed_ms == pytest.approx(FROUDE_K * 7.00, abs=0.01)
+    assert density_prior([fol]).speed_ms == pytest.approx(EARLY_FACTOR * FROUDE_K * 7.00, abs=0.01)

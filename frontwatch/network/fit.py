@@ -36,10 +36,10 @@ CURV_T = 2.0
 MAX_SPEED_MS = 10.0
 # Fronts speed up through the day: "from under 3 to over 6 m/s" (Linacre & Geerts 1997). Reading
 # that as a doubling over about five hours gives 0.2 per hour (the rate is from memory, not a
-# published figure); capped at 2.5 times. Used where the data do not show the acceleration yet
+# published figure); capped at 2 times. Used where the data do not show the acceleration yet
 # (fits without the fitted acceleration term).
 ACCEL_PER_H = 0.2
-ACCEL_MAX_FACTOR = 2.5
+ACCEL_MAX_FACTOR = 2.0
 
 
 @dataclass(frozen=True, slots=True)

@@ -144,6 +144,13 @@ def expected_conditions(front: Front) -> Expected:
                     max(gst) if gst else None, sum(dt) / len(dt) if dt else None)
 
 
+def _cached_expected(front: Front) -> Expected:
+    e = front.cache.get("expected")
+    if e is None:
+        e = front.cache["expected"] = expected_conditions(front)
+    return e  # type: ignore[no-any-return]
+
+
 def forecast_for_site(
     site: str,
     x: float,
@@ -169,7 +176,7 @@ def forecast_for_site(
     common: dict[str, Any] = dict(
         site=site, issued_at=now, front=front.key, front_speed_ms=f.speed_ms, front_heading_deg=f.heading_deg,
         basis=front.basis, stations=len(front.arrivals), speed_sd_ms=sp_sd, heading_sd_deg=hd_sd,
-        residual_rms_s=f.residual_rms_s, expected=expected_conditions(front), upstream_pending=upstream_pending,
+        residual_rms_s=f.residual_rms_s, expected=_cached_expected(front), upstream_pending=upstream_pending,
     )
     if arrived_at is not None:
         return SiteForecast(status=ARRIVED, eta=arrived_at, eta_earliest=None, eta_latest=None, **common)

@@ -2,7 +2,7 @@
 
 Per minute, from the site station's observations:
 - vector-mean direction (of the wind vectors), scalar mean speed and Yamartino (1984) direction spread
-  over the last 2, 5 and 10 minutes;
+  over the last 2, 5 and 10 whole data minutes (running sums per minute: cheap once a minute);
 - the 10-minute direction against the course axis (signed; positive = veered, clockwise of the axis);
 - the pattern over the last PATTERN_MIN minutes of one-minute directions: a 'persistent' shift (the
   late mean moved away from the early mean by more than the oscillation explains), an 'oscillating'
@@ -11,8 +11,9 @@ Per minute, from the site station's observations:
   sqrt(2) x the residual sd, as for a sinusoid), 'steady', or 'unsettled';
 - 'new breeze filled in and steady': the 10-minute wind is onshore, at speed, with a small spread,
   and has stayed so for NEW_BREEZE_HOLD_MIN minutes; reported with the minute it first was so.
-A report goes out only when the summary changes meaningfully (pattern or new-breeze flag, which
-need PATTERN_HOLD_MIN minutes to be believed, or the 10-minute direction or spread moved by
+A report goes out only when the summary changes meaningfully (the pattern, analysed every 3 minutes
+and believed when two analyses agree; the new-breeze flag, believed after 3 minutes; or the 10-minute
+direction or spread moved by
 REPORT_DIR_DEG since the last report). Thresholds are common practice on race committees, not
 from a published source; they are module constants.
 """
@@ -24,7 +25,15 @@ from collections import deque
 from dataclasses import dataclass
 from typing import Any
 
-from ..calc.wind import angle_diff_deg, circular_mean_deg, in_sector, vector_mean, yamartino_sigma_deg
+from ..calc.wind import (
+    angle_diff_deg,
+    circular_mean_deg,
+    in_sector,
+    vector_mean,
+    wind_components,
+    wind_direction,
+    yamartino_sigma_deg,
+)
 from ..timeutil import iso_z
 
 WINDOWS_MIN = (2, 5, 10)
@@ -40,9 +49,10 @@ NEW_BREEZE_MIN_MS = 2.0
 NEW_BREEZE_MAX_SPREAD_DEG = 15.0
 NEW_BREEZE_HOLD_MIN = 3
 NEW_BREEZE_LOSS_MIN = 5
-PATTERN_HOLD_MIN = 3
+PATTERN_EVERY_MIN = 3
+PATTERN_HOLD = 2  # analyses in a row
 REPORT_DIR_DEG = 5.0
-MAX_SAMPLES = 1200  # 10 minutes at up to 2 records a second
+_YAM_B = 2.0 / math.sqrt(3.0) - 1.0  # Yamartino (1984) eq. 2 coefficient
 
 
 def _r(x: float | None, nd: int = 1) -> float | None:
@@ -133,6 +143,25 @@ def window_stat(samples: list[tuple[float, float, float]], now: float, minutes: 
                       sum(spd) / len(spd) if spd else None, len(spd))
 
 
+def yamartino_from_sums(mean_sin: float, mean_cos: float) -> float:
+    """Yamartino (1984) sigma, deg, from the mean sine and cosine of the directions (the same
+    formula as calc.wind.yamartino_sigma_deg, for running sums)."""
+    eps = min(math.sqrt(max(0.0, 1.0 - (mean_sin * mean_sin + mean_cos * mean_cos))), 1.0)
+    return math.degrees(math.asin(eps) * (1.0 + _YAM_B * eps**3))
+
+
+def _stat(minutes: int, ss: float, cs: float, nd: float, su: float, sv: float, nv: float, sp: float,
+          ns: float) -> WindowStat:
+    """A WindowStat from running sums (sin, cos, n dirs, u, v, n vectors, speed, n speeds)."""
+    if ns == 0 and nd == 0:
+        return WindowStat(minutes, None, None, None, 0)
+    vdir = wind_direction(su / nv, sv / nv) if nv else math.nan
+    if vdir != vdir and nd:
+        vdir = math.degrees(math.atan2(ss, cs)) % 360.0
+    spread = yamartino_from_sums(ss / nd, cs / nd) if nd else None
+    return WindowStat(minutes, None if vdir != vdir else vdir, spread, sp / ns if ns else None, int(ns))
+
+
 def analyse_pattern(minute_dirs: list[tuple[float, float]]) -> Pattern:
     """Classify one-minute directions [(t, dir)] as persistent shift / oscillation / steady / unsettled."""
     pts = [(t, d) for t, d in minute_dirs if d == d]
@@ -186,11 +215,14 @@ class CourseMonitor:
         self.axis_deg = axis_deg
         self.onshore_from_deg = onshore_from_deg
         self.halfwidth = onshore_halfwidth_deg
-        self.samples: deque[tuple[float, float, float]] = deque(maxlen=MAX_SAMPLES)
+        # One bucket per data minute: [minute, sum sin, sum cos, n dirs, sum u, sum v, n vectors,
+        # sum speed, n speeds]; windows add up the last k buckets (trigonometry once per record).
+        self.buckets: deque[list[float]] = deque(maxlen=max(WINDOWS_MIN) + 2)
         self.minutes: deque[tuple[float, float]] = deque(maxlen=PATTERN_MIN)
         self.pattern_kind = "unknown"  # the reported (debounced) pattern
         self.pattern_candidate = "unknown"
         self.pattern_count = 0
+        self.last_pattern = Pattern("unknown", None, None, None)
         self.breeze_run_start: float | None = None
         self.breeze_run_len = 0
         self.breeze_fail = 0
@@ -198,25 +230,75 @@ class CourseMonitor:
         self.last_report: tuple[str, bool, float | None, float | None] | None = None
 
     def add(self, t: float, dir_deg: float, speed_ms: float) -> None:
-        self.samples.append((t, dir_deg, speed_ms))
+        m = float(t // 60.0)
+        b = self.buckets[-1] if self.buckets else None
+        if b is None or b[0] != m:
+            b = [m, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0]
+            self.buckets.append(b)
+        if speed_ms == speed_ms:
+            b[7] += speed_ms
+            b[8] += 1
+            if speed_ms == 0.0:
+                b[6] += 1  # calm: a zero vector
+            elif dir_deg == dir_deg:
+                u, v = wind_components(speed_ms, dir_deg)
+                b[4] += u
+                b[5] += v
+                b[6] += 1
+        if dir_deg == dir_deg:
+            r = math.radians(dir_deg)
+            b[1] += math.sin(r)
+            b[2] += math.cos(r)
+            b[3] += 1
+
+    def window(self, now: float, minutes: int) -> WindowStat:
+        """Statistics of the `minutes` whole data minutes before the one `now` falls in."""
+        return self.windows(now, (minutes,))[0]
+
+    def windows(self, now: float, spans: tuple[int, ...] = (1, *WINDOWS_MIN)) -> tuple[WindowStat, ...]:
+        """window() for several spans (ascending), in one pass over the buckets, newest first."""
+        m_now = now // 60.0
+        ss = cs = nd = su = sv = nv = sp = ns = 0.0
+        out = []
+        it = reversed(self.buckets)
+        b = next(it, None)
+        for k in spans:
+            while b is not None and b[0] >= m_now - k:
+                if b[0] < m_now:
+                    ss += b[1]
+                    cs += b[2]
+                    nd += b[3]
+                    su += b[4]
+                    sv += b[5]
+                    nv += b[6]
+                    sp += b[7]
+                    ns += b[8]
+                b = next(it, None)
+            out.append(_stat(k, ss, cs, nd, su, sv, nv, sp, ns))
+        return tuple(out)
 
     def tick(self, now: float) -> CourseReport | None:
         """Once a data minute: update the summary; returns a report when it changed meaningfully."""
-        while self.samples and self.samples[0][0] < now - 600.0:
-            self.samples.popleft()
-        smp = list(self.samples)
-        one = window_stat(smp, now, 1)
+        quiet = not self.buckets or self.buckets[-1][0] < now // 60.0 - max(WINDOWS_MIN) - 1
+        if quiet and self.last_report is None:
+            return None  # nothing heard for longer than the longest window, nothing said yet
+        one, *rest = self.windows(now)
         self.minutes.append((now, math.nan if one.dir_deg is None else one.dir_deg))
-        wins = tuple(window_stat(smp, now, m) for m in WINDOWS_MIN)
+        wins = tuple(rest)
         w10 = wins[-1]
         shift = None if w10.dir_deg is None else angle_diff_deg(w10.dir_deg, self.axis_deg)
-        pat = analyse_pattern(list(self.minutes))
-        if pat.kind == self.pattern_candidate:
-            self.pattern_count += 1
-        else:
-            self.pattern_candidate, self.pattern_count = pat.kind, 1
-        if self.pattern_count >= PATTERN_HOLD_MIN:
-            self.pattern_kind = pat.kind
+        # The pattern needs tens of minutes to change: analyse every PATTERN_EVERY_MIN data minutes
+        # (chosen by the minute's number, so replay and restore agree), believe it after PATTERN_HOLD.
+        if int(now // 60.0) % PATTERN_EVERY_MIN == 0:
+            pat = analyse_pattern(list(self.minutes))
+            self.last_pattern = pat
+            if pat.kind == self.pattern_candidate:
+                self.pattern_count += 1
+            else:
+                self.pattern_candidate, self.pattern_count = pat.kind, 1
+            if self.pattern_count >= PATTERN_HOLD:
+                self.pattern_kind = pat.kind
+        pat = self.last_pattern
         ok = (w10.dir_deg is not None and w10.spread_deg is not None and w10.speed_ms is not None
               and w10.speed_ms >= NEW_BREEZE_MIN_MS and w10.spread_deg <= NEW_BREEZE_MAX_SPREAD_DEG
               and in_sector(w10.dir_deg, self.onshore_from_deg, self.halfwidth))
@@ -257,16 +339,19 @@ class CourseMonitor:
                             self.new_breeze_since is not None, self.new_breeze_since)
 
     def snapshot(self) -> dict[str, Any]:
-        return {"samples": [[_j(v) for v in s] for s in self.samples],
+        return {"buckets": [list(b) for b in self.buckets],
                 "minutes": [[_j(v) for v in m] for m in self.minutes],
                 "pattern": [self.pattern_kind, self.pattern_candidate, self.pattern_count],
+                "last_pattern": [self.last_pattern.kind, self.last_pattern.trend_deg, self.last_pattern.period_min,
+                                 self.last_pattern.amplitude_deg],
                 "breeze": [self.breeze_run_start, self.breeze_run_len, self.breeze_fail, self.new_breeze_since],
                 "last_report": None if self.last_report is None else list(self.last_report)}
 
     def restore(self, s: dict[str, Any]) -> None:
-        self.samples = deque(((_f(a), _f(b), _f(c)) for a, b, c in s["samples"]), maxlen=MAX_SAMPLES)
+        self.buckets = deque(([float(x) for x in b] for b in s["buckets"]), maxlen=self.buckets.maxlen)
         self.minutes = deque(((_f(a), _f(b)) for a, b in s["minutes"]), maxlen=PATTERN_MIN)
         self.pattern_kind, self.pattern_candidate, self.pattern_count = s["pattern"]
+        self.last_pattern = Pattern(*s["last_pattern"])
         self.breeze_run_start, self.breeze_run_len, self.breeze_fail, self.new_breeze_since = s["breeze"]
         lr = s["last_report"]
         self.last_report = None if lr is None else (lr[0], lr[1], lr[2], lr[3])

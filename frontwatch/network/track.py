@@ -87,8 +87,10 @@ class Front:
     # (deadline, station) of stations not yet reached, further along than any reached one, soonest
     # first: the station is overdue after its deadline (set from the fit at each new arrival).
     deadlines: list[tuple[float, str]] = field(default_factory=list)
+    cache: dict[str, Any] = field(default_factory=dict)  # values derived from the arrivals (reset by refit)
 
     def refit(self) -> None:
+        self.cache.clear()
         pts = [(a.x, a.y, a.onset) for a in self.arrivals.values()]
         prior = density_prior(
             PassageFacts(a.shore_to_deg, a.temp_change_c, a.temp_after_c, a.dir_before_deg, a.speed_before_ms)

@@ -14,14 +14,23 @@ import math
 from dataclasses import replace
 from typing import Any
 
-from ..alerts.lifecycle import ACTIVE, AlertMessage, SiteAlerts
+from ..alerts.lifecycle import (
+    ACTIVE,
+    APPROACHING,
+    ARRIVED_STATE,
+    CLEAR_AFTER_S,
+    IMMINENT,
+    ISSUE_LEAD_S,
+    AlertMessage,
+    SiteAlerts,
+)
 from ..calc.geo import haversine_m, local_xy_m
 from ..calc.wind import wind_components, wind_direction
 from ..config import NetworkConfig, SiteConfig
 from ..events import PassageEvent
 from ..obs import Observation
 from ..timeutil import LocalClock
-from .forecast import EXPECTED, NOT_EXPECTED, SiteForecast, forecast_for_site
+from .forecast import ARRIVED, EXPECTED, NOT_EXPECTED, SiteForecast, forecast_for_site
 from .race import CourseMonitor, CourseReport
 from .track import FRONT_TTL_S, STATION_UP_S, Front, FrontTracker
 
@@ -49,6 +58,7 @@ class _Site:
         self.front: str | None = None
         self.last_fc: SiteForecast | None = None
         self.arrived: tuple[str, float] | None = None  # (front, time) once the front has arrived here
+        self.next_eval = -math.inf  # data time before which the clock alone cannot change its outputs
 
 
 def nearest_station(config: NetworkConfig, lat: float, lon: float) -> tuple[str, float]:
@@ -96,20 +106,23 @@ class SiteWatch:
         self.last_seen: dict[str, float] = {}
         self.passages: dict[str, float] = {}  # site station -> onset of its latest breeze-front passage
         self.minute = -1
+        self._next_tick = -math.inf  # data time of the next minute boundary
 
     # ---- the hot path -------------------------------------------------------------------------
     def observe(self, obs: Observation, event: PassageEvent | None) -> list[Output]:
         t = obs.time
-        self.last_seen[obs.station] = t
-        mons = self._watched.get(obs.station)
-        if mons is not None:
-            self._watch_obs(obs, mons)
+        st = obs.station
+        self.last_seen[st] = t
+        if st in self._watched:
+            self._watch_obs(obs, self._watched[st])
+        if event is None and t < self._next_tick:
+            return []
         out: list[Output] = []
         if event is not None and event.kind == "breeze_front":
             out.extend(self._on_passage(event, t))
-        m = int(t // 60.0)
-        if m > self.minute:
-            self.minute = m
+        if t >= self._next_tick:
+            self.minute = int(t // 60.0)
+            self._next_tick = (self.minute + 1) * 60.0
             out.extend(self._tick(t))
         return out
 
@@ -224,7 +237,22 @@ class SiteWatch:
                                None if site.station is None else self.last_seen.get(site.station))
         if msg is not None:
             out.append(msg)
+        site.next_eval = self._next_eval(site, fc, now)
         return out
+
+    def _next_eval(self, site: _Site, fc: SiteForecast, now: float) -> float:
+        """When the clock alone may next change this site's outputs (passages and stalls re-evaluate
+        it anyway): keeps the once-a-minute work small while nothing is due."""
+        st = site.alerts.state
+        if fc.status == EXPECTED:
+            if st in (APPROACHING, IMMINENT) or fc.eta is None:
+                return now + 60.0
+            return max(now + 60.0, fc.eta - ISSUE_LEAD_S - 60.0)  # nothing happens before the alert horizon
+        if fc.status == ARRIVED and st == ARRIVED_STATE and site.alerts.arrived_at is not None:
+            return max(now + 60.0, site.alerts.arrived_at + CLEAR_AFTER_S)
+        if fc.status == ARRIVED and site.station is None and fc.eta is not None and fc.eta > now:
+            return now + 60.0
+        return math.inf
 
     def _current_dir(self, station: str) -> float | None:
         e = self._ema.get(station)
@@ -238,7 +266,7 @@ class SiteWatch:
         out: list[Output] = []
         tr = self.tracker
         if tr.fronts:
-            tr.check_stalls(now, self.last_seen)
+            stalled = {fr.key for fr in tr.check_stalls(now, self.last_seen)}
             gone = {fr.key for fr in tr.expire(now)}
             for site in self.sites:
                 if site.front is None:
@@ -260,7 +288,8 @@ class SiteWatch:
                     if msg is not None:
                         out.append(msg)
                     continue
-                out.extend(self._evaluate(site, now, None, emit_forecast=False))
+                if now >= site.next_eval or site.front in stalled:
+                    out.extend(self._evaluate(site, now, None, emit_forecast=False))
         else:
             for site in self.sites:
                 if site.alerts.state in ACTIVE:
@@ -283,12 +312,14 @@ class SiteWatch:
             "fronts": self.tracker.snapshot(),
             "sites": {s.cfg.id: {"front": s.front, "last_fc": None if s.last_fc is None else s.last_fc.to_state(),
                                  "arrived": None if s.arrived is None else list(s.arrived),
+                                 "next_eval": None if math.isinf(s.next_eval) else s.next_eval,
                                  "alerts": s.alerts.snapshot()} for s in self.sites},
             "monitors": {k: m.snapshot() for k, m in self.monitors.items()},
         }
 
     def restore(self, snap: dict[str, Any]) -> None:
         self.minute = int(snap["minute"])
+        self._next_tick = (self.minute + 1) * 60.0 if self.minute >= 0 else -math.inf
         self.last_seen = {k: float(v) for k, v in snap["last_seen"].items()}
         self.passages = {k: float(v) for k, v in snap["passages"].items()}
         for k, v in snap["ema"].items():
@@ -302,6 +333,7 @@ class SiteWatch:
             s.front = d["front"]
             s.last_fc = None if d["last_fc"] is None else SiteForecast.from_state(d["last_fc"])
             s.arrived = None if d["arrived"] is None else (str(d["arrived"][0]), float(d["arrived"][1]))
+            s.next_eval = math.inf if d["next_eval"] is None else float(d["next_eval"])
             s.alerts.restore(d["alerts"])
         for k, m in self.monitors.items():
             if k in snap["monitors"]:

@@ -27,6 +27,7 @@ pytestmark = [pytest.mark.browser,
 
 SCREENSHOT = Path(__file__).resolve().parents[1] / "out" / "dashboard.png"
 SILENT = "GS009"  # never reports
+LAGGING = "GS008"  # stops reporting 15 data-minutes before the others
 
 
 def wait_for(cond: Callable[[], Any], what: str, timeout: float = 15.0) -> Any:
@@ -47,7 +48,7 @@ def feed(hub: DashboardHub, t_from: float, t_to: float) -> None:
     t = t_from
     while t < t_to:
         for st in hub.config.stations:
-            if st.id != SILENT:
+            if st.id != SILENT and not (st.id == LAGGING and t > T0 + 10 * 60):
                 hub.observe(observation(hub.config, st.id, t), ("step_temp_c",) if st.id == "GS003" and t == t_from else ())
         t += 60
 
@@ -80,10 +81,15 @@ def test_page_draws_network_and_follows_the_stream(browser: Any) -> None:
         assert js(f"return document.querySelector('[data-station={SILENT}]').dataset.status") == "nodata"
         assert js(f"return document.querySelector('[data-station={SILENT}] .arrow').getAttribute('visibility')") == "hidden"
         assert js("return document.querySelector('#map [data-station=GS001] .arrow').getAttribute('visibility')") == "visible"
+        # the lagging station's last record is 15 data-minutes old: STALE, its old wind not drawn
+        assert js(f"return document.querySelector('[data-station={LAGGING}]').dataset.status") == "stale"
+        assert js(f"return document.querySelector('[data-station={LAGGING}] .arrow').getAttribute('visibility')") == "hidden"
+        assert js(f"return document.querySelector('[data-station={LAGGING}] .flag').textContent") == "STALE"
         assert "Decision support only" in browser.find_element("id", "caution").text
         assert "official warnings" in browser.find_element("id", "caution").text
         health = browser.find_element("id", "health-rows").text
         assert SILENT in health and "NO DATA" in health and "GS003" in health  # QC flag listed
+        assert LAGGING in health and "STALE" in health
 
         # a passage at the site's station arrives over the stream and reaches card and list
         site_station = next(s["station"] for s in hub.state()["sites"] if s["id"] == "shoal-course")
@@ -178,7 +184,7 @@ def test_page_follows_the_core_over_a_replay(browser: Any) -> None:
         while not (any(d.get("type") is None and d["kind"] == "breeze_front" for d in seen)
                    and any(d.get("type") == "alert" for d in seen)):
             got: list[dict[str, Any]] = []
-            srv.call(lambda: got.extend(step(900)))  # 100 data minutes of 9 stations
+            srv.call(lambda g=got: g.extend(step(900)))  # 100 data minutes of 9 stations
             seen += got
             assert hub.seq < 20_000, "the replay's first day went by without a breeze front and an alert"
         events = [d["id"] for d in seen if "type" not in d]
@@ -193,3 +199,18 @@ def test_page_follows_the_core_over_a_replay(browser: Any) -> None:
             wait_for(lambda el=state_el, a=alert: browser.find_element("css selector", el).text
                      == a["state"].replace("_", " "), f"the {site.id} card state")
         assert "official warnings" in browser.find_element("id", "caution").text
+
+
+def test_page_with_an_access_token(browser: Any) -> None:
+    cfg = network(4)
+    hub = DashboardHub(cfg)
+    feed(hub, T0, T0 + 5 * 60)
+    with Server(make_app(hub, CollectorRegistry(), token="tok-123")) as srv:
+        browser.get(srv.url)
+        assert "token required" in browser.page_source  # no token: nothing but the refusal
+        browser.get(srv.url + "?token=tok-123")
+        wait_for(lambda: browser.execute_script(
+            "return window.frontwatch && window.frontwatch.es && window.frontwatch.es.readyState === 1"), "the stream")
+        srv.call(hub.emit, passage(cfg, "GS002").to_dict())
+        wait_for(lambda: browser.find_elements("css selector", "#passages li[data-event]"), "the passage over the stream")
+        assert len(browser.find_elements("css selector", "#map [data-station]")) == 4

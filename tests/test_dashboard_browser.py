@@ -196,8 +196,12 @@ def test_page_follows_the_core_over_a_replay(browser: Any) -> None:
             if alert is None:
                 continue
             state_el = f"#sites article[data-site='{site.id}'] .state"
-            wait_for(lambda el=state_el, a=alert: browser.find_element("css selector", el).text
-                     == a["state"].replace("_", " "), f"the {site.id} card state")
+            want = str(alert["state"]).replace("_", " ")
+
+            def shows(el: str = state_el, w: str = want) -> bool:
+                return bool(browser.find_element("css selector", el).text == w)
+
+            wait_for(shows, f"the {site.id} card state")
         assert "official warnings" in browser.find_element("id", "caution").text
 
 

@@ -43,6 +43,7 @@ from frontwatch.config import NetworkConfig, load_network  # noqa: E402
 from frontwatch.obs import Observation  # noqa: E402
 from frontwatch.replay import read_observations  # noqa: E402
 from frontwatch.service.broker import EmbeddedBroker  # noqa: E402
+from frontwatch.service.mqtt import quiet_closed_socket_noise  # noqa: E402
 from frontwatch.service.publish import plan_messages, publish_messages  # noqa: E402
 from frontwatch.service.runner import Service  # noqa: E402
 from frontwatch.service.settings import ServiceSettings, parse_broker_url  # noqa: E402
@@ -183,14 +184,6 @@ def _local_hour_index(obs: list[Observation], cfg: NetworkConfig, hour: float) -
     return 0
 
 
-def _quiet_closed_socket_noise(loop: asyncio.AbstractEventLoop, ctx: dict[str, object]) -> None:
-    """aiomqtt may schedule a write registration for a socket that closes first; that is harmless."""
-    exc = ctx.get("exception")
-    if isinstance(exc, OSError) and "add_writer" in str(ctx.get("message", "")) + str(ctx.get("handle", "")):
-        return
-    loop.default_exception_handler(ctx)
-
-
 def p99(xs: list[float]) -> float:
     if not xs:
         return float("nan")
@@ -200,7 +193,7 @@ def p99(xs: list[float]) -> float:
 
 async def main(runs: int, records: int, latency_records: int, rate: float = 1000.0) -> None:
     logging.basicConfig(level=logging.WARNING)
-    asyncio.get_running_loop().set_exception_handler(_quiet_closed_socket_noise)
+    asyncio.get_running_loop().set_exception_handler(quiet_closed_socket_noise)
     tmp = Path(tempfile.mkdtemp(prefix="fw-bench-"))
     cfg, all_obs = load_scenario(tmp)
     obs = all_obs[:records]

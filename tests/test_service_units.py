@@ -129,17 +129,21 @@ def test_restart_from_journal_and_snapshot_gives_the_replay_outputs(scenario, tm
     for k in range(0, a, 20):
         svc.process_batch(items[k:k + 20])
     svc.snapshot()
-    for k in range(a, b, 20):
-        svc.process_batch(items[k:min(b, k + 20)])
+    for k in range(a, b, 7):
+        svc.process_batch(items[k:min(b, k + 7)])
     before_crash = svc.store.outputs("event")
     assert before_crash  # some passages were found before the crash
-    svc.store.close()  # the process dies here: no final snapshot
+    # The process dies here: no final snapshot. Messages fed but not yet journalled were not
+    # acknowledged either, so the broker delivers them again after the restart.
+    redeliver = b - len(svc._unacked)
+    svc.store.close()
 
     svc2 = Service(cfg, st)
-    assert svc2.recover() == b - a  # re-fed the journalled records after the snapshot
-    assert svc2.engine.stats.records == b
-    for k in range(b, len(items), 20):
+    assert svc2.recover() == redeliver - a  # re-fed the journalled records after the snapshot
+    assert svc2.engine.stats.records == redeliver
+    for k in range(redeliver, len(items), 20):
         svc2.process_batch(items[k:k + 20])
+    svc2.commit()
     assert sorted(svc2.store.outputs("event"), key=lambda d: d["id"]) == sorted(ref, key=lambda d: d["id"])
     assert len(svc2.store.unpublished()) == len(ref)  # nothing was sent here (no broker): all still owed
 

@@ -30,7 +30,10 @@ def _logging(verbose: bool) -> None:
 
 async def _until_signalled(main: object, stop: asyncio.Event) -> None:
     """Run `main` (a coroutine) with Ctrl-C and SIGTERM setting `stop` for a clean shutdown."""
+    from ..service.mqtt import quiet_closed_socket_noise
+
     loop = asyncio.get_running_loop()
+    loop.set_exception_handler(quiet_closed_socket_noise)
     for sig in (signal.SIGINT, signal.SIGTERM):
         with contextlib.suppress(NotImplementedError, RuntimeError):  # not on this platform
             loop.add_signal_handler(sig, stop.set)

@@ -3,11 +3,13 @@ TLS, auth, last will), reconnect delays, and topic helpers."""
 
 from __future__ import annotations
 
+import asyncio
 import contextlib
 import random
 import socket
 import ssl
 from dataclasses import dataclass
+from typing import Any
 
 import aiomqtt
 from paho.mqtt.packettypes import PacketTypes
@@ -95,3 +97,12 @@ def station_of(topic: str, obs_prefix: str) -> str | None:
         return None
     rest = topic[len(obs_prefix):]
     return rest if rest and "/" not in rest else None
+
+
+def quiet_closed_socket_noise(loop: asyncio.AbstractEventLoop, ctx: dict[str, Any]) -> None:
+    """Loop exception handler: aiomqtt may schedule a write registration for a socket that has just
+    closed (a disconnect right after a publish); that one is harmless. Everything else as usual."""
+    exc = ctx.get("exception")
+    if isinstance(exc, OSError | KeyError) and "add_writer" in f"{ctx.get('message', '')} {ctx.get('handle', '')}":
+        return
+    loop.default_exception_handler(ctx)

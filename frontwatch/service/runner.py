@@ -40,6 +40,8 @@ log = logging.getLogger("frontwatch.service")
 
 MAX_BATCH = 2000  # messages per consumer batch (one transaction)
 GATHER_TURNS = 64  # loop turns the consumer waits for a batch to fill while messages keep coming
+ACK_EVERY = 20  # commit and acknowledge at least this often (Mosquitto's in-flight window is 20)
+COMMIT_EVERY_S = 0.005  # ... or this long after the oldest unacknowledged message
 
 
 @dataclass(slots=True)
@@ -91,6 +93,9 @@ class Service:
         self._events_seen: dict[str, int] = {}
         self._last_snapshot = 0.0
         self.taken = 0  # messages taken by the core since start (for tests and the demo)
+        self._unjournalled: list[tuple[str, bytes]] = []  # fed to the core, not yet in the journal
+        self._unacked: list[_Item] = []  # fed to the core, not yet acknowledged
+        self._first_pending = 0.0
 
     # --- start-up: restore the core and catch up on the journal ------------------------------
     def recover(self) -> int:
@@ -142,6 +147,7 @@ class Service:
         self._publish_wakeup.set()
 
     def snapshot(self) -> None:
+        self.commit()  # the snapshot may only cover input that is in the journal
         self.store.save_snapshot(self.engine.snapshot(), dict(self.engine.stats.last_time))
         self.metrics.snapshots.inc()
 
@@ -237,16 +243,26 @@ class Service:
             while True:
                 if not self.inbox:
                     if self._stopping.is_set():
+                        self.commit()
                         return
                     self.metrics.queue_depth.set(0)
                     self._ready.clear()
-                    await self._ready.wait()
+                    if self._unjournalled:
+                        # Group commit: wait a little for more, then journal and acknowledge.
+                        wait = self._first_pending + COMMIT_EVERY_S - time.monotonic()
+                        if wait <= 0:
+                            self.commit()
+                            continue
+                        with contextlib.suppress(TimeoutError):
+                            await asyncio.wait_for(self._ready.wait(), wait)
+                    else:
+                        await self._ready.wait()
                     continue
                 if self._stopping.is_set():
+                    self.commit()
                     return  # unacknowledged messages stay with the broker for next time
                 # The client reads one packet per loop turn: let what is already on the socket come
-                # in (the broker sends a window of unacknowledged messages) and take it as one batch,
-                # one transaction and one burst of acks. Costs at most a few loop turns of latency.
+                # in (the broker sends a window of unacknowledged messages) and take it as one batch.
                 quiet = 0
                 for _ in range(GATHER_TURNS):
                     n = self._arrived()
@@ -282,44 +298,42 @@ class Service:
             return [], [DecodeError(f"undecodable payload: {type(exc).__name__}", station=st, code="undecodable")]
 
     def process_batch(self, batch: list[_Item]) -> None:
-        """Decode, journal, acknowledge, feed, store outputs; synchronous on purpose (see the module
-        docstring). The acks go out before the core runs, so the broker sends the next window while
-        we work; what is acknowledged is already in the journal, which a restart feeds again."""
+        """Decode, feed, store; synchronous on purpose (see the module docstring).
+
+        Journal rows and acks are grouped: they are committed (then acknowledged) with the outputs
+        of a batch that has any, after ACK_EVERY messages, or COMMIT_EVERY_S after the oldest
+        waiting one, so a quiet feed does not pay one transaction per record. Until then the
+        messages stay unacknowledged, so a crash loses nothing: the broker sends them again."""
         m = self.metrics
         eng = self.engine
         known = eng.detectors
         hub = self.hub
-        journal: list[tuple[str, bytes]] = []
-        decoded: list[tuple[list[Observation], float]] = []
         m.messages.inc(len(batch))
         self.taken += len(batch)
+        if not self._unjournalled:
+            self._first_pending = time.monotonic()
+        outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
+        n_rec = 0
+        t_core = 0.0
+        latest: dict[str, tuple[Observation, float]] = {}
+        perf = time.perf_counter
         for item in batch:
+            self._unacked.append(item)
             obs, errors = self._decode(item.topic, item.payload)
             for err in errors:
                 m.refused.labels(err.code).inc()
             if not obs:
                 continue
             if any(o.station in known for o in obs):
-                journal.append((item.topic, item.payload))
-            decoded.append((obs, item.received))
-        if journal:
-            self.store.commit_batch(journal, ())
-        for item in batch:
-            self._ack(item)
-        if self._client is not None:
-            flush_writes(self._client)
-
-        outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
-        n_rec = 0
-        latest: dict[str, tuple[Observation, float]] = {}
-        t0 = time.perf_counter()
-        for obs, received in decoded:
+                self._unjournalled.append((item.topic, item.payload))
             n_rec += len(obs)
+            t0 = perf()
+            received = item.received
             for o in obs:
                 for out in eng.feed(o):
                     outputs.append(self._route(out.to_dict(), received))
                 latest[o.station] = (o, received)
-        t_core = time.perf_counter() - t0
+            t_core += perf() - t0
         # The dashboard gets each station's newest record of the batch: every record at live rates
         # (a batch is one message), a sample when catching up on a backlog.
         for sid, (o, received) in latest.items():
@@ -330,12 +344,24 @@ class Service:
             m.records.inc(n_rec)
             m.processing.observe(t_core / n_rec)
         self._sync_engine_counters()
+        if outputs or len(self._unacked) >= ACK_EVERY or \
+                time.monotonic() - self._first_pending >= COMMIT_EVERY_S:
+            self.commit(outputs)
+
+    def commit(self, outputs: list[tuple[str, str, dict[str, Any], bool, float]] | None = None) -> None:
+        """Journal what was fed, store `outputs`, then acknowledge the messages to the broker."""
+        journal, self._unjournalled = self._unjournalled, []
+        acks, self._unacked = self._unacked, []
+        new = set(self.store.commit_batch(journal, outputs or ())) if (journal or outputs) else set()
+        for item in acks:
+            self._ack(item)
+        if acks and self._client is not None:
+            flush_writes(self._client)
         if not outputs:
             return
-        new = set(self.store.commit_batch((), outputs))
         for key, _topic, payload, _retain, _created in outputs:
             if key in new:
-                hub.emit(payload)
+                self.hub.emit(payload)
                 if self.on_output is not None:
                     self.on_output(payload)
         if new:

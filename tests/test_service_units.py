@@ -179,3 +179,17 @@ def test_service_loop_smoke_without_broker(scenario) -> None:  # type: ignore[no
         await asyncio.wait_for(run, 5)
 
     asyncio.run(main())
+
+
+def test_dashboard_gets_the_qc_flags_of_a_record(scenario) -> None:  # type: ignore[no-untyped-def]
+    import json
+
+    cfg = load_network(scenario[0])
+    st = ServiceSettings(broker=parse_broker_url("mqtt://127.0.0.1:9"), prefix="p", db_path=None, http_port=None)
+    svc = Service(cfg, st)
+    good = {"station": "GR01", "wind_dir_deg": 270, "wind_speed_ms": 3.0, "temp_c": 25.0, "dewpoint_c": 14.0}
+    recs = [{**good, "time": "2026-01-01T00:00:00Z"}, {**good, "time": "2026-01-01T00:01:00Z", "temp_c": 99.0}]
+    svc.process_batch([_Item(0, i + 1, 1, "p/obs/GR01", json.dumps(r).encode(), time.time())
+                       for i, r in enumerate(recs)])
+    assert svc.engine.stats.qc  # the core flagged the 99 degC temperature
+    assert svc.hub.qc_trouble.get("GR01", 0) == sum(svc.engine.stats.qc.values())

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import asyncio
 import contextlib
+import itertools
 import logging
 import socket
 import time
@@ -87,7 +88,7 @@ class Service:
         self.web_ready = asyncio.Event()
         self._client: aiomqtt.Client | None = None
         self._gen = 0
-        self._unknown_seen: set[str] = set()
+        self._unknown_n = 0  # distinct unknown stations reported so far
         self._unknown_total = 0
         self._qc_seen: dict[str, int] = {}
         self._events_seen: dict[str, int] = {}
@@ -96,6 +97,8 @@ class Service:
         self._unjournalled: list[tuple[str, bytes]] = []  # fed to the core, not yet in the journal
         self._unacked: list[_Item] = []  # fed to the core, not yet acknowledged
         self._first_pending = 0.0
+        self._qc_mirror: dict[str, int] = {}
+        self._qc_total = 0
 
     # --- start-up: restore the core and catch up on the journal ------------------------------
     def recover(self) -> int:
@@ -118,6 +121,7 @@ class Service:
             new = self.store.commit_batch((), outputs)
             log.info("re-fed %d journalled records: %d outputs, %d not stored before", n, len(outputs), len(new))
         self._sync_engine_counters(count=False)
+        self._new_flags()  # the restored counts are the baseline for per-record flags
         for stored in self.store.outputs()[-200:]:
             self.hub.emit(stored)
         return n
@@ -316,6 +320,8 @@ class Service:
         n_rec = 0
         t_core = 0.0
         latest: dict[str, tuple[Observation, float]] = {}
+        flags: dict[str, list[str]] = {}
+        qc = eng.stats.qc
         perf = time.perf_counter
         for item in batch:
             self._unacked.append(item)
@@ -333,13 +339,15 @@ class Service:
                 for out in eng.feed(o):
                     outputs.append(self._route(out.to_dict(), received))
                 latest[o.station] = (o, received)
+                if qc.total() != self._qc_total:
+                    flags.setdefault(o.station, []).extend(self._new_flags())
             t_core += perf() - t0
         # The dashboard gets each station's newest record of the batch: every record at live rates
         # (a batch is one message), a sample when catching up on a backlog.
         for sid, (o, received) in latest.items():
             if sid in known:
                 m.station_seen[sid] = (received, o.time)
-                hub.observe(o, ())
+                hub.observe(o, flags.get(sid, ()))
         if n_rec:
             m.records.inc(n_rec)
             m.processing.observe(t_core / n_rec)
@@ -367,6 +375,14 @@ class Service:
         if new:
             self._publish_wakeup.set()
 
+    def _new_flags(self) -> list[str]:
+        """QC flags raised since the last call (the core counts them; the dashboard wants them)."""
+        qc = self.engine.stats.qc
+        new = [k for k, v in qc.items() if v > self._qc_mirror.get(k, 0)]
+        self._qc_mirror = dict(qc)
+        self._qc_total = qc.total()
+        return new
+
     def _route(self, out: dict[str, Any], received: float) -> tuple[str, str, dict[str, Any], bool, float]:
         kind = out.get("type")
         if kind is None:
@@ -386,14 +402,15 @@ class Service:
                     if count and d > 0:
                         metric.labels(k).inc(d)
         unknown = st.unknown_stations
-        if len(unknown) != len(self._unknown_seen):
-            for sid in unknown:
-                if sid not in self._unknown_seen:
-                    self._unknown_seen.add(sid)
-                    if len(self._unknown_seen) > 20:
-                        continue  # reported once each, up to a point; the metric keeps counting
+        if len(unknown) > self._unknown_n:
+            # New unknown stations are appended to the counter: log the first few, once each.
+            for sid in itertools.islice(unknown, self._unknown_n, None):
+                if self._unknown_n < 20:
                     log.warning("records from station %r, which is not in %s, are counted and ignored",
                                 sid, self.config.source)
+                elif self._unknown_n == 20:
+                    log.warning("more unknown stations; frontwatch_unknown_station_records_total counts them")
+                self._unknown_n += 1
         total = sum(unknown.values()) if unknown else 0
         if total > self._unknown_total:
             if count:

@@ -56,7 +56,8 @@ def broker_url(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
 @pytest.fixture
 def prefix(request: pytest.FixtureRequest) -> Iterator[str]:
     """A topic prefix of this test alone, so tests on the shared broker do not see each other.
-    Afterwards the retained messages left under it (status, alerts ...) are cleared."""
+    Afterwards the retained messages left under it (status, alerts ...) and the persistent
+    sessions of its client ids are cleared."""
     p = "fwtest-" + uuid.uuid4().hex[:10]
     yield p
     if "broker_url" in request.fixturenames:
@@ -85,6 +86,15 @@ def _clear_retained(url: str, prefix: str) -> None:
         c.publish(t, b"", qos=1, retain=True).wait_for_publish(2)
     c.loop_stop()
     c.disconnect()
+    # Persistent sessions the test made (service, readers) are dropped by a clean connect.
+    for suffix in ("-svc", "-reader", "-st", "-pub"):
+        k = mqtt.Client(mqtt.CallbackAPIVersion.VERSION2, client_id=prefix + suffix, clean_session=True)
+        try:
+            k.connect(b.host, b.port)
+            k.loop(0.05)
+            k.disconnect()
+        except OSError:
+            pass
 
 
 @pytest.fixture(scope="session")

@@ -218,3 +218,27 @@ async def test_demo_scenario_through_a_gateway_gives_every_replay_output(broker_
                     assert m.retain
                     late[m.topic.value.rsplit("/", 1)[1]] = json.loads(m.payload)  # type: ignore[arg-type]
     assert late == last_alert
+
+
+@pytest.mark.parametrize("mqtt5", [False, True], ids=["mqtt311", "mqtt5"])
+async def test_messages_sent_while_away_arrive_after_a_restart(broker_url: str, prefix: str, scenario,  # type: ignore[no-untyped-def]
+                                                               tmp_path, mqtt5: bool) -> None:
+    """The session persists at the broker (clean_session false / MQTT 5 session expiry), so what is
+    published while the service is stopped is delivered when it comes back."""
+    cfg = load_network(scenario[0])
+    st = _settings(broker_url, prefix, mqtt5=mqtt5, db_path=tmp_path / "s.sqlite")
+    for phase in range(2):
+        svc = Service(cfg, st)
+        stop = asyncio.Event()
+        run = asyncio.create_task(svc.run(stop))
+        assert await wait_until(svc.connected.is_set, 10)
+        if phase == 1:
+            assert await wait_until(lambda: svc.taken >= 5, 10)  # svc is the restarted one
+            assert svc.engine.stats.used == 5
+        stop.set()
+        await run
+        if phase == 0:
+            recs = [{"station": "GR02", "time": f"2026-01-01T00:0{k}:00Z", "temp_c": 20.0 + k,
+                     "wind_speed_ms": 2.0, "wind_dir_deg": 200} for k in range(5)]
+            await publish_messages([(0.0, f"{prefix}/obs/GR02", json.dumps(r).encode(), 1) for r in recs],
+                                   st.but(client_id=prefix + "-pub"))

@@ -233,7 +233,7 @@ async def test_messages_sent_while_away_arrive_after_a_restart(broker_url: str, 
         run = asyncio.create_task(svc.run(stop))
         assert await wait_until(svc.connected.is_set, 10)
         if phase == 1:
-            assert await wait_until(lambda: svc.taken >= 5, 10)  # svc is the restarted one
+            assert await wait_until(lambda s=svc: s.taken >= 5, 10)  # the restarted one
             assert svc.engine.stats.used == 5
         stop.set()
         await run

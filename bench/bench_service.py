@@ -24,6 +24,7 @@ import contextlib
 import json
 import logging
 import signal
+import socket
 import statistics
 import subprocess
 import sys
@@ -49,6 +50,7 @@ from frontwatch.service.runner import Service  # noqa: E402
 from frontwatch.service.settings import ServiceSettings, parse_broker_url  # noqa: E402
 
 Msg = tuple[float, str, bytes, int]
+NODELAY = ((socket.IPPROTO_TCP, socket.TCP_NODELAY, 1),)  # the feed and the reader send small packets at once
 
 
 def load_scenario(tmp: Path) -> tuple[NetworkConfig, list[Observation]]:
@@ -128,7 +130,7 @@ async def latency_run(net: Path, cfg: NetworkConfig, url: str, obs: list[Observa
     online = asyncio.Event()
 
     async def listen() -> None:
-        async with aiomqtt.Client(b.host, b.port) as c:
+        async with aiomqtt.Client(b.host, b.port, socket_options=NODELAY) as c:
             await c.subscribe(f"{prefix}/status", qos=1)
             for kind in ("events", "forecasts", "alerts", "courses"):
                 await c.subscribe(f"{prefix}/{kind}/+", qos=1)
@@ -143,7 +145,8 @@ async def latency_run(net: Path, cfg: NetworkConfig, url: str, obs: list[Observa
     try:
         await asyncio.wait_for(online.wait(), 30)
         await asyncio.sleep(0.5)
-        async with aiomqtt.Client(b.host, b.port) as client:
+        cpu0 = _cpu_seconds(proc.pid)
+        async with aiomqtt.Client(b.host, b.port, socket_options=NODELAY) as client:
             t0 = time.perf_counter()
             for i, (t, topic, payload, _n) in enumerate(msgs):
                 delay = t0 + i / rate - time.perf_counter()
@@ -154,6 +157,9 @@ async def latency_run(net: Path, cfg: NetworkConfig, url: str, obs: list[Observa
                 first_at.setdefault(t, now)
                 await client.publish(topic, payload, qos=0)
         await asyncio.sleep(1.0)
+        cpu = _cpu_seconds(proc.pid) - cpu0
+        print(f"    service process CPU: {cpu / len(msgs) * 1e6:.0f} us per record "
+              f"({cpu / (len(msgs) / rate) * 100:.0f}% of one core at this rate)", flush=True)
     finally:
         proc.send_signal(signal.SIGTERM)
         proc.wait(20)
@@ -174,6 +180,14 @@ async def latency_run(net: Path, cfg: NetworkConfig, url: str, obs: list[Observa
     return ev, allout
 
 
+def _cpu_seconds(pid: int) -> float:
+    """User + system CPU seconds of a process (Linux /proc)."""
+    import os
+
+    fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+    return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+
+
 def _local_hour_index(obs: list[Observation], cfg: NetworkConfig, hour: float) -> int:
     from frontwatch.timeutil import LocalClock
 
@@ -191,7 +205,7 @@ def p99(xs: list[float]) -> float:
     return ys[min(len(ys) - 1, int(0.99 * len(ys)))]
 
 
-async def main(runs: int, records: int, latency_records: int, rate: float = 1000.0) -> None:
+async def main(runs: int, records: int, latency_records: int, rate: float = 1000.0, nodelay: bool = True) -> None:
     logging.basicConfig(level=logging.WARNING)
     asyncio.get_running_loop().set_exception_handler(quiet_closed_socket_noise)
     tmp = Path(tempfile.mkdtemp(prefix="fw-bench-"))
@@ -202,10 +216,12 @@ async def main(runs: int, records: int, latency_records: int, rate: float = 1000
     lat_obs = all_obs[day0:day0 + latency_records]
     async with contextlib.AsyncExitStack() as stack:
         if have_mosquitto():
-            mq = Mosquitto(tmp / "broker", extra=["max_queued_messages 0"], persistence=False)
+            mq = Mosquitto(tmp / "broker", extra=["max_queued_messages 0", *(["set_tcp_nodelay true"] if nodelay else [])],
+                           persistence=False)
             mq.start()
             stack.callback(mq.stop)
-            url, broker_name = mq.url, "private mosquitto (max_queued_messages 0, max_inflight_messages 20)"
+            url, broker_name = mq.url, ("private mosquitto (max_queued_messages 0, max_inflight_messages 20, "
+                                        f"set_tcp_nodelay {'true' if nodelay else 'false'})")
         else:
             emb = await stack.enter_async_context(EmbeddedBroker())
             url, broker_name = emb.url, "embedded amqtt (no mosquitto binary)"
@@ -218,14 +234,20 @@ async def main(runs: int, records: int, latency_records: int, rate: float = 1000
 
             eng = Engine(cfg)
             per: list[float] = []
+            per_event: list[float] = []
             t_all = time.perf_counter()
             for o in obs:
                 t1 = time.perf_counter()
-                eng.feed(o)
-                per.append(time.perf_counter() - t1)
+                outs = eng.feed(o)
+                dt = time.perf_counter() - t1
+                per.append(dt)
+                if any("type" not in x.to_dict() for x in outs):
+                    per_event.append(dt)
             core.append(len(obs) / (time.perf_counter() - t_all))
         print(f"core alone (Engine.feed, no I/O): {statistics.median(core):,.0f} records/s (median); per record "
-              f"p50 {statistics.median(per) * 1e6:.0f} us, p99 {p99(per) * 1e3:.2f} ms, max {max(per) * 1e3:.1f} ms")
+              f"p50 {statistics.median(per) * 1e6:.0f} us, p99 {p99(per) * 1e3:.2f} ms, max {max(per) * 1e3:.1f} ms; "
+              f"records that emit an event: median {statistics.median(per_event or [0.0]) * 1e3:.1f} ms, "
+              f"max {max(per_event or [0.0]) * 1e3:.1f} ms")
 
         bare, full, gate = [], [], []
         for r in range(runs):
@@ -274,5 +296,6 @@ if __name__ == "__main__":
     ap.add_argument("--records", type=int, default=20000)
     ap.add_argument("--latency-records", type=int, default=10000)
     ap.add_argument("--rate", type=float, default=1000.0, help="records a second in the latency runs")
+    ap.add_argument("--broker-nagle", action="store_true", help="leave Mosquitto's set_tcp_nodelay off")
     a = ap.parse_args()
-    asyncio.run(main(a.runs, a.records, a.latency_records, a.rate))
+    asyncio.run(main(a.runs, a.records, a.latency_records, a.rate, not a.broker_nagle))

@@ -112,7 +112,7 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
     fronts = sc.fronts
     # Our front key -> true front (by the time of the first passage).
     ours: dict[str, dict[str, Any] | None] = {}
-    for o in fcs:
+    for o in fcs + alerts:
         k = o["front"]
         if k not in ours:
             ours[k] = _match_front(fronts, parse_time(o["issued_at"]))
@@ -139,6 +139,7 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
     inside: list[bool] = []
     first_lead: list[float] = []
     never_alerts = 0
+    alert_lead: list[float] = []  # first approaching/imminent alert before the true arrival (0 = none)
     never_cases = 0
     for f in fronts:
         first_st = min((parse_time(t) for t in f["station_arrivals"].values() if t), default=None)
@@ -153,6 +154,9 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
             tt = parse_time(t_true)
             if first_st is None or tt - first_st < 20 * 60:
                 continue
+            warned = [parse_time(a["issued_at"]) for a in site_alerts if a["state"] in ("approaching", "imminent")
+                      and parse_time(a["issued_at"]) < tt]
+            alert_lead.append((tt - warned[0]) / 60.0 if warned else 0.0)
             pre = [o for o in fcs if o["site"] == site and o["front"] in keys and o["status"] == "expected"
                    and parse_time(o["issued_at"]) < tt]
             for o in pre:
@@ -166,6 +170,9 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
                 first_lead.append((tt - parse_time(pre[0]["issued_at"])) / 60.0)
             else:
                 first_lead.append(0.0)
+    # Alerts that belong to no true front (a tracked 'front' made of false detections).
+    false_alerts = len({(a["site"], a["front"]) for a in alerts if ours.get(a["front"]) is None
+                        and a["state"] in ("approaching", "imminent", "arrived")})
     # State changes per (front, site).
     changes: dict[tuple[str, str], list[str]] = defaultdict(list)
     for a in alerts:
@@ -178,7 +185,7 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
     return {"seed": seed, "records": records, "seconds": elapsed, "fronts": len(fronts), "tracked": len(ours),
             "speed_err": speed_err, "head_err": head_err, "eta_err": eta_err, "first_lead": first_lead,
             "eta_fit": eta_by["fit"], "eta_prior": eta_by["prior"], "eta_last15": list(late_err.values()),
-            "inside": inside,
+            "inside": inside, "alert_lead": alert_lead, "false_alerts": false_alerts,
             "never_cases": never_cases, "never_alerts": never_alerts, "flaps": flaps, "max_changes": max_changes,
             "alerts": len(alerts), "forecasts": len(fcs), "paths": [" > ".join(s) for s in changes.values()]}
 
@@ -239,8 +246,12 @@ def report(a: argparse.Namespace, mode: str) -> None:
     print(f"    by basis: fit (>= 3 stations) median {_med(fit):.1f} min (n={len(fit)}), prior median {_med(pri):.1f} min "
           f"(n={len(pri)}); last forecast >= 15 min before arrival: median {_med(l15):.1f} min (n={len(l15)}); "
           f"true arrival inside the interval: {sum(ins)}/{len(ins)}")
+    al = [x for r in allr for x in r["alert_lead"]]
+    print(f"  alert before arrival (same sites): {sum(x > 0 for x in al)}/{len(al)}; lead of the first: median "
+          f"{_med([x for x in al if x > 0]):.0f} min; >= 15 min: {sum(x >= 15 for x in al)}/{len(al)}")
     print(f"  alerts for sites never reached: {sum(r['never_alerts'] for r in allr)} of "
-          f"{sum(r['never_cases'] for r in allr)} cases; flaps (imminent -> approaching): "
+          f"{sum(r['never_cases'] for r in allr)} cases; alerts with no true front: "
+          f"{sum(r['false_alerts'] for r in allr)}; flaps (imminent -> approaching): "
           f"{sum(r['flaps'] for r in allr)}; most state changes of one alert: {max(r['max_changes'] for r in allr)}")
 
 

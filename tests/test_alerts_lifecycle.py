@@ -4,7 +4,16 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-from frontwatch.alerts.lifecycle import IMMINENT_EXIT_S, IMMINENT_S, STALE_S, UPDATE_ETA_S, SiteAlerts
+from frontwatch.alerts.lifecycle import (
+    IMMINENT_EXIT_S,
+    IMMINENT_S,
+    ISSUE_LEAD_PRIOR_S,
+    ISSUE_LEAD_S,
+    ISSUE_MAX_PENDING,
+    STALE_S,
+    UPDATE_ETA_S,
+    SiteAlerts,
+)
 from frontwatch.config import SiteConfig
 from frontwatch.network.forecast import Expected, SiteForecast
 
@@ -86,11 +95,16 @@ def test_cancel_then_a_new_alert_gets_a_new_id() -> None:
 
 def test_first_alert_waits_for_checkpoints_and_a_fit() -> None:
     a = SiteAlerts(SITE, station="S30")
-    # A station short of the site has not reported yet: no alert even when close.
-    assert a.step(NOW, _fc(NOW, 15, pending=1), last_seen=NOW) is None
-    # Prior basis from one station, 60 min out: not yet.
-    assert a.step(NOW, _fc(NOW, 60, basis="prior", stations=1), last_seen=NOW) is None
-    assert a.step(NOW, _fc(NOW, 60, basis="fit", stations=3), last_seen=NOW) is not None
+    # Two stations short of the site have not reported yet: no alert even when close.
+    assert a.step(NOW, _fc(NOW, 15, pending=ISSUE_MAX_PENDING + 1), last_seen=NOW) is None
+    # Prior basis (one station), 75 min out: not yet; a fitted front that far out: yes.
+    assert ISSUE_LEAD_PRIOR_S < 75 * 60 <= ISSUE_LEAD_S
+    assert a.step(NOW, _fc(NOW, 75, basis="prior", stations=1), last_seen=NOW) is None
+    m = a.step(NOW, _fc(NOW, 75, basis="fit", stations=3), last_seen=NOW)
+    assert m is not None and m.state == "approaching" and m.certainty == "Likely"
+    b = SiteAlerts(SITE, station="S30")
+    m2 = b.step(NOW, _fc(NOW, 50, basis="prior", stations=1), last_seen=NOW)
+    assert m2 is not None and m2.certainty == "Possible"
 
 
 def test_thresholds_severity_and_stale_station_warning() -> None:

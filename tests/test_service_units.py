@@ -193,3 +193,25 @@ def test_dashboard_gets_the_qc_flags_of_a_record(scenario) -> None:  # type: ign
                        for i, r in enumerate(recs)])
     assert svc.engine.stats.qc  # the core flagged the 99 degC temperature
     assert svc.hub.qc_trouble.get("GR01", 0) == sum(svc.engine.stats.qc.values())
+
+
+def test_a_core_failure_on_one_record_is_counted_and_the_stream_goes_on(scenario, monkeypatch) -> None:  # type: ignore[no-untyped-def]
+    import json
+
+    cfg = load_network(scenario[0])
+    st = ServiceSettings(broker=parse_broker_url("mqtt://127.0.0.1:9"), prefix="p", db_path=None, http_port=None)
+    svc = Service(cfg, st)
+    real = svc.engine.feed
+
+    def flaky(o):  # type: ignore[no-untyped-def]
+        if o.temp_c == 13.0:
+            raise ZeroDivisionError("a bug")
+        return real(o)
+
+    monkeypatch.setattr(svc.engine, "feed", flaky)
+    recs = [{"station": "GR01", "time": f"2026-01-01T00:0{k}:00Z", "temp_c": 13.0 if k == 1 else 20.0}
+            for k in range(3)]
+    svc.process_batch([_Item(0, i + 1, 1, "p/obs/GR01", json.dumps(r).encode(), time.time())
+                       for i, r in enumerate(recs)])
+    assert svc.metrics.refused.labels("core_error")._value.get() == 1
+    assert svc.engine.stats.records == 2

@@ -99,6 +99,7 @@ class Service:
         self._first_pending = 0.0
         self._qc_mirror: dict[str, int] = {}
         self._qc_total = 0
+        self._core_errors = 0
 
     # --- start-up: restore the core and catch up on the journal ------------------------------
     def recover(self) -> int:
@@ -182,7 +183,8 @@ class Service:
                     self.connected.set()
                     await self._connected_session(client)
                     if self._stopping.is_set():
-                        await self._flush(client)
+                        with contextlib.suppress(TimeoutError):
+                            await asyncio.wait_for(self._flush(client), 5)  # what is left goes next start
                         await client.publish(status, b"offline", qos=1, retain=True, timeout=3)
             except aiomqtt.MqttError as exc:
                 failures += 1
@@ -336,7 +338,12 @@ class Service:
             t0 = perf()
             received = item.received
             for o in obs:
-                for out in eng.feed(o):
+                try:
+                    produced = eng.feed(o)
+                except Exception:  # a bug in the core must not stop the stream: count, report once
+                    self._core_error(o)
+                    continue
+                for out in produced:
                     outputs.append(self._route(out.to_dict(), received))
                 latest[o.station] = (o, received)
                 if qc.total() != self._qc_total:
@@ -374,6 +381,13 @@ class Service:
                     self.on_output(payload)
         if new:
             self._publish_wakeup.set()
+
+    def _core_error(self, o: Observation) -> None:
+        self.metrics.refused.labels("core_error").inc()
+        if not self._core_errors:
+            log.exception("the core failed on a record of station %r at %s; such records are counted "
+                          "(frontwatch_records_refused_total{reason=\"core_error\"}) and skipped", o.station, o.time)
+        self._core_errors += 1
 
     def _new_flags(self) -> list[str]:
         """QC flags raised since the last call (the core counts them; the dashboard wants them)."""

@@ -80,6 +80,7 @@ class StationQC:
             "pressure_hpa": _Channel(s.pressure_min_hpa, s.pressure_max_hpa, s.pressure_step_hpa, persist * 3),
         }
         self.vane = _Channel(0.0, 360.0, 400.0, s.vane_persist_min * 60.0)
+        self._t, self._d, self._s, self._p = (self.ch[k] for k in _FIELDS)
         self.newest = -1e18
 
     def check(self, obs: Observation) -> tuple[Observation | None, list[str]]:
@@ -93,38 +94,53 @@ class StationQC:
         if t - newest > self.settings.gap_s and newest > -1e17:
             flags.append("gap")  # informational: the record is used, detector windows see the gap
         self.newest = t
-        vals = {"temp_c": obs.temp_c, "dewpoint_c": obs.dewpoint_c, "wind_speed_ms": obs.wind_speed_ms,
-                "pressure_hpa": obs.pressure_hpa}
         changed = False
-        for name in _FIELDS:
-            x = vals[name]
-            if x != x:
-                continue
-            ch = self.ch[name]
-            if name == "wind_speed_ms" and x == 0.0:
+        # Written out per quantity (not a loop over names): this runs for every record.
+        tc = obs.temp_c
+        if tc == tc:
+            bad = self._t.check(tc, t)
+            if bad is not None:
+                flags.append("temp_" + bad)
+                tc = NAN
+                changed = True
+        td = obs.dewpoint_c
+        if td == td:
+            bad = self._d.check(td, t)
+            if bad is not None:
+                flags.append("dewpoint_" + bad)
+                td = NAN
+                changed = True
+            elif tc == tc and td > tc + self.settings.dewpoint_excess_c:
+                flags.append("dewpoint_above_temp")
+                td = NAN
+                changed = True
+        ws = obs.wind_speed_ms
+        if ws == ws:
+            ch = self._s
+            if ws == 0.0:
                 ch.run_value = NAN  # calm is not a stuck anemometer
                 ch.last, ch.last_t = 0.0, t
-                continue
-            bad = ch.check(x, t)
-            if bad is not None:
-                flags.append(f"{name.rsplit('_', 1)[0]}_{bad}")
-                vals[name] = NAN
-                changed = True
-        td, tc = vals["dewpoint_c"], vals["temp_c"]
-        if td == td and tc == tc and td > tc + self.settings.dewpoint_excess_c:
-            flags.append("dewpoint_above_temp")
-            vals["dewpoint_c"] = NAN
-            changed = True
-        wd = obs.wind_dir_deg
-        ws = vals["wind_speed_ms"]
-        if wd == wd:
-            if ws == ws and ws > 0.5:
-                if self.vane.check(wd, t) == "stuck":
-                    flags.append("wind_dir_stuck")
-                    wd = NAN
+            else:
+                bad = ch.check(ws, t)
+                if bad is not None:
+                    flags.append("wind_speed_" + bad)
+                    ws = NAN
                     changed = True
+        p = obs.pressure_hpa
+        if p == p:
+            bad = self._p.check(p, t)
+            if bad is not None:
+                flags.append("pressure_" + bad)
+                p = NAN
+                changed = True
+        wd = obs.wind_dir_deg
+        if wd == wd:
             if ws != ws:
                 wd = NAN  # a direction without a trusted speed cannot make a wind vector
+                changed = True
+            elif ws > 0.5 and self.vane.check(wd, t) == "stuck":
+                flags.append("wind_dir_stuck")
+                wd = NAN
                 changed = True
         gust = obs.wind_gust_ms
         if gust == gust and (gust < 0.0 or gust > self.settings.speed_max_ms * 1.5):
@@ -133,8 +149,7 @@ class StationQC:
             changed = True
         if not changed:
             return obs, flags
-        return Observation(obs.station, t, wd, ws, gust, vals["temp_c"], vals["dewpoint_c"],
-                           vals["pressure_hpa"], obs.rain_mm), flags
+        return Observation(obs.station, t, wd, ws, gust, tc, td, p, obs.rain_mm), flags
 
     def snapshot(self) -> dict[str, Any]:
         return {"newest": self.newest, "ch": {k: c.state() for k, c in self.ch.items()}, "vane": self.vane.state()}

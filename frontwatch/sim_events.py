@@ -183,8 +183,10 @@ def breeze_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock, 
 
     labels = []
     for i in np.flatnonzero(hit):
+        # The passage is timed at the middle of the wind's transition, where it changes fastest: how
+        # a passage is read off a station trace (common practice). fronts.jsonl keeps the leading edge.
         labels.append({"station": setting.stations[i].id, "kind": "breeze_front",
-                       "time": iso(clock.start_epoch + arr[i] * 60.0), "front": front_id,
+                       "time": iso(clock.start_epoch + (arr[i] + 0.5 * tau[i]) * 60.0), "front": front_id,
                        "transition_min": round(float(tau[i]), 1),
                        "change": {"temp_c": round(-float(dT[i]), 2), "dewpoint_c": round(float(dTd[i]), 2),
                                   "pressure_hpa": round(float(dp[i]), 2), "speed_after_ms": round(float(vb[i]), 2)}})
@@ -288,7 +290,7 @@ def land_breeze(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock,
     labels = []
     for i in np.flatnonzero(on & (onset < clock.minutes)):
         labels.append({"station": setting.stations[i].id, "kind": "land_breeze",
-                       "time": iso(clock.start_epoch + onset[i] * 60.0),
+                       "time": iso(clock.start_epoch + (onset[i] + 0.5 * tau[i]) * 60.0),
                        "transition_min": round(float(tau[i]), 1)})
     return labels
 

@@ -84,7 +84,9 @@ def apply_cold_front(fields: Fields, setting: Setting, cf: ColdFront, clock: Clo
     rain_len = rng.uniform(15.0, 40.0, n)[:, None]
     inside = (m >= rain_start) & (m < rain_start + rain_len)
     f.rain[:, sl] += inside * rng.uniform(0.4, 5.0, n)[:, None] / rain_len
-    return [{"station": p.id, "kind": "cold_front", "time": iso(clock.start_epoch + cf.passage_min[i] * 60.0),
+    # Timed at the middle of the wind shift (its steepest point), as for every passage label.
+    return [{"station": p.id, "kind": "cold_front",
+             "time": iso(clock.start_epoch + (cf.passage_min[i] + 0.5 * cf.shift_min[i]) * 60.0),
              "note": f"synoptic cold front moving towards {cf.heading_deg:.0f} deg at {cf.speed_ms:.1f} m/s"}
             for i, p in enumerate(setting.stations) if cf.passage_min[i] < clock.minutes]
 
@@ -152,7 +154,8 @@ def gust_front(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock,
     f.rain[:, sl] += total * shape / (0.35 * dur)
     note = "thunderstorm outflow from the sea side" if from_sea else "thunderstorm outflow"
     return [{"station": setting.stations[i].id, "kind": "gust_front",
-             "time": iso(clock.start_epoch + arr[i] * 60.0), "note": note} for i in np.flatnonzero(hit)]
+             "time": iso(clock.start_epoch + (arr[i] + 0.5 * float(up[i, 0])) * 60.0), "note": note}
+            for i in np.flatnonzero(hit)]
 
 
 def cloud_shadows(fields: Fields, setting: Setting, plan: DayPlan, clock: Clock,

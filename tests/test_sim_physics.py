@@ -194,7 +194,8 @@ def test_arrival_order_follows_distance_along_the_heading(north):
             lat, lon = pos[lab["station"]]
             az, _, dist = geod.inv(o["lon"], o["lat"], lon, lat)
             proj.append(dist / 1000.0 * math.cos(math.radians(az - front["heading_deg"])))
-        times = np.array([parse_time(lab["time"]) for lab in labs])
+        # Labels time the middle of each station's transition; the track is the leading edge.
+        times = np.array([parse_time(lab["time"]) - 30.0 * lab["transition_min"] for lab in labs])
         proj = np.array(proj)
         lobe = front["lobes"]["amplitude_km"]
         # A station clearly farther along the heading (beyond the lobes of the line) is reached later.

@@ -21,7 +21,7 @@ import numpy as np
 # channel order: temperature, dewpoint, onshore wind component, alongshore component, pressure
 CHANNELS = ("temp", "dewpoint", "onshore", "alongshore", "pressure")
 FLOORS = np.array([0.06, 0.08, 0.25, 0.25, 0.05])  # smallest credible noise per channel (sensor resolution)
-START_FRACTION = 0.15
+START_FRACTION = 0.5
 
 
 @dataclass(frozen=True, slots=True)

@@ -4,7 +4,8 @@ The full change-point scoring is costly (a window of arrays), so it runs only on
 opens. The gate only decides when to look, never what was found, and errs on the side of looking.
 Each channel's threshold scales with that channel's own recent wander (the typical size of its
 fast-minus-slow deviation over the last hour or so), so a gusty or drifting station does not
-keep the gate open and a quiet one is not missed.
+keep the gate open and a quiet one is not missed. Written out channel by channel: it runs for
+every observation.
 """
 
 from __future__ import annotations
@@ -16,62 +17,74 @@ K2 = 9.0  # open when the squared deviations, in units of their usual wander, su
 # Floors below which a change is never interesting (T and Td in degC, wind vector in m/s).
 FLOOR_T = 0.25
 FLOOR_W = 1.0
+MIN_WANDER = 0.02
 NAN = float("nan")
 
 
 class Gate:
     """Channels: temperature, dewpoint, wind u, wind v. T and Td are compared with their own drift."""
 
-    __slots__ = ("f", "s", "drift", "wander", "primed")
+    __slots__ = ("ft", "st", "fd", "sd", "fu", "su", "fv", "sv", "drift_t", "drift_d", "w_t", "w_d", "w_w",
+                 "primed")
 
     def __init__(self) -> None:
-        self.f = [NAN, NAN, NAN, NAN]
-        self.s = [NAN, NAN, NAN, NAN]
-        self.drift = [0.0, 0.0]  # slow mean of (fast - slow) for T and Td: the diurnal trend's lag
-        self.wander = [0.1, 0.1, 0.5]  # typical |deviation| of T, Td and the wind vector
+        self.ft = self.st = self.fd = self.sd = NAN
+        self.fu = self.su = self.fv = self.sv = NAN
+        self.drift_t = self.drift_d = 0.0  # slow mean of (fast - slow): the diurnal trend's lag
+        self.w_t = self.w_d = 0.1  # typical |deviation| of T, Td
+        self.w_w = 0.5  # and of the wind vector
         self.primed = 0
 
-    def update(self, x0: float, x1: float, x2: float, x3: float) -> bool:
-        """Feed one sample (NaN = missing); True if any channel moved well beyond its usual wander."""
-        f, s = self.f, self.s
-        for i, xi in ((0, x0), (1, x1), (2, x2), (3, x3)):
-            if xi == xi:
-                if f[i] == f[i]:
-                    f[i] += FAST * (xi - f[i])
-                    s[i] += SLOW * (xi - s[i])
-                else:
-                    f[i] = s[i] = xi
+    def update(self, t: float, d: float, u: float, v: float) -> bool:
+        """Feed one sample (NaN = missing); True if the channels moved well beyond their usual wander."""
+        z2 = 0.0
+        if t == t:
+            if self.ft == self.ft:
+                self.ft += FAST * (t - self.ft)
+                self.st += SLOW * (t - self.st)
+                x = self.ft - self.st
+                dev = abs(x - self.drift_t)
+                self.drift_t += SLOW * (x - self.drift_t)
+                if dev > FLOOR_T:
+                    z2 += (dev / self.w_t) ** 2
+                self.w_t += WANDER * (max(dev, MIN_WANDER) - self.w_t)
+            else:
+                self.ft = self.st = t
+        if d == d:
+            if self.fd == self.fd:
+                self.fd += FAST * (d - self.fd)
+                self.sd += SLOW * (d - self.sd)
+                x = self.fd - self.sd
+                dev = abs(x - self.drift_d)
+                self.drift_d += SLOW * (x - self.drift_d)
+                if dev > FLOOR_T:
+                    z2 += (dev / self.w_d) ** 2
+                self.w_d += WANDER * (max(dev, MIN_WANDER) - self.w_d)
+            else:
+                self.fd = self.sd = d
+        if u == u and v == v:
+            if self.fu == self.fu:
+                self.fu += FAST * (u - self.fu)
+                self.su += SLOW * (u - self.su)
+                self.fv += FAST * (v - self.fv)
+                self.sv += SLOW * (v - self.sv)
+                du = self.fu - self.su
+                dv = self.fv - self.sv
+                dw = (du * du + dv * dv) ** 0.5
+                if dw > FLOOR_W:
+                    z2 += (dw / self.w_w) ** 2
+                self.w_w += WANDER * (max(dw, MIN_WANDER) - self.w_w)
+            else:
+                self.fu = self.su = u
+                self.fv = self.sv = v
         if self.primed < 15:
             self.primed += 1
             return False
-        drift, wander = self.drift, self.wander
-        # A front moves several channels at once, noise mostly one: combine them before deciding.
-        z2 = 0.0
-        devs = [0.0, 0.0, 0.0]
-        for i in (0, 1):
-            d = f[i] - s[i]
-            if d == d:
-                dev = abs(d - drift[i])
-                drift[i] += SLOW * (d - drift[i])
-                devs[i] = dev
-                if dev > FLOOR_T:
-                    z2 += (dev / wander[i]) ** 2
-        du = f[2] - s[2]
-        dv = f[3] - s[3]
-        if du == du and dv == dv:
-            dw = (du * du + dv * dv) ** 0.5
-            devs[2] = dw
-            if dw > FLOOR_W:
-                z2 += (dw / wander[2]) ** 2
-        if z2 > K2:
-            return True
-        for i in (0, 1, 2):
-            wander[i] += WANDER * (max(devs[i], 0.02) - wander[i])
-        return False
+        return z2 > K2
 
-    def state(self) -> list[list[float] | int]:
-        return [list(self.f), list(self.s), list(self.drift), list(self.wander), self.primed]
+    def state(self) -> list[float]:
+        return [getattr(self, k) for k in self.__slots__]
 
-    def set_state(self, st: list) -> None:  # type: ignore[type-arg]
-        self.f, self.s, self.drift, self.wander = (list(map(float, v)) for v in st[:4])
-        self.primed = int(st[4])
+    def set_state(self, st: list[float]) -> None:
+        for k, v in zip(self.__slots__, st, strict=True):
+            setattr(self, k, float(v) if k != "primed" else int(v))

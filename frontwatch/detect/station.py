@@ -97,7 +97,8 @@ class StationDetector:
         al = -u * co + v * so
         ring.append((t, obs.temp_c, obs.dewpoint_c, on, al, obs.pressure_hpa, u, v, obs.wind_gust_ms, obs.rain_mm))
         opened = self.gate.update(obs.temp_c, obs.dewpoint_c, u, v)
-        if (opened or self.pending) and len(ring) >= 20:
+        if (opened or self.pending) and len(ring) >= 20 and \
+                t - (self.settings.confirm_min - 1) * 60.0 >= self.quiet_until:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore", RuntimeWarning)  # empty slices of all-missing channels
                 return self._evaluate(t)

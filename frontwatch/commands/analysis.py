@@ -35,6 +35,8 @@ def _print_score(rep: ScoreReport, tz: Any) -> None:
     from ..report import fmt, fmt_min, local_text
 
     con = Console()
+    if not con.is_terminal:
+        con = Console(width=130)  # a file or pipe: do not wrap the tables at 80 columns
     o = rep.overall
     con.print(f"[bold]{rep.target}[/bold]: {rep.n_labels} labels, {rep.n_events} events, matched within "
               f"{rep.tolerance_s / 60:.0f} min at the same station (Wilks scores)")

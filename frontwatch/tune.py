@@ -545,7 +545,7 @@ def tune(store: ObsStore, config: NetworkConfig, labels: Sequence[Label], space:
          progress: Callable[[float, float], None] | None = None) -> TuneResult:
     """Search `space` around the network's current detector settings; see the module docstring.
 
-    `progress(done, total)` is called as trials finish (units: record-days of work).
+    `progress(done, total)` is called as trials finish (units: records run through a detector).
     `store_dir` is where `store` is saved for worker processes (required when workers > 1).
     """
     import tempfile
@@ -592,7 +592,7 @@ def tune(store: ObsStore, config: NetworkConfig, labels: Sequence[Label], space:
     def work(days: list[int] | None) -> float:
         return float(sum(sizes[d] for d in (all_days if days is None else days)))
 
-    # Work planned, in record-days; for halving an upper bound (the current settings may be carried
+    # Work planned, in records run; for halving an upper bound (the current settings may be carried
     # along), and the bar is closed at 100 % when the search ends.
     total, count = 0.0, len(trials)
     for days in rungs_days:

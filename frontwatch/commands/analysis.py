@@ -215,7 +215,7 @@ def register(app: typer.Typer) -> None:
                   f"{bad} bad records skipped); {len(lbs)} labels")
         if strangers:
             con.print(f"[yellow]labels name stations not in the network file: {', '.join(strangers)}[/yellow]")
-        columns = (TextColumn("searching"), BarColumn(), MofNCompleteColumn(), TextColumn("record-days"),
+        columns = (TextColumn("searching"), BarColumn(), MofNCompleteColumn(), TextColumn("records run"),
                    TimeElapsedColumn(), TextColumn("left"), TimeRemainingColumn())
         with Progress(*columns, console=con, disable=not con.is_terminal) as prog:
             task = prog.add_task("search", total=None)

@@ -24,7 +24,8 @@ from .prior import PassageFacts, density_prior
 
 JOIN_TOL_S = 20 * 60.0  # an onset this close to the prediction (or 3 sd) joins the front
 JOIN_SIGMAS = 3.0
-JOIN_TOL_MAX_S = 60 * 60.0  # however uncertain the prediction (a prior far from its station), no more
+JOIN_TOL_MAX_S = 60 * 60.0
+JOIN_MODEL_REL_ERR = 0.12  # as forecast.MODEL_REL_ERR  # however uncertain the prediction (a prior far from its station), no more
 LINK_M = 60_000.0  # a joining station is at most this far from one already in the front
 OVERDUE_MIN_S = 15 * 60.0  # a station is overdue this long (or 2.5 sd) after its predicted time
 OVERDUE_SIGMAS = 2.5
@@ -106,6 +107,10 @@ class Front:
     def first_onset(self) -> float:
         return min(a.onset for a in self.arrivals.values())
 
+    @property
+    def last_onset(self) -> float:
+        return max(a.onset for a in self.arrivals.values())
+
     def max_progress(self) -> float:
         f = self.fit
         assert f is not None
@@ -149,9 +154,15 @@ class FrontTracker:
                 continue
             if min(math.hypot(a.x - arr.x, a.y - arr.y) for a in fr.arrivals.values()) > LINK_M:
                 continue
-            t_pred, _, sd = fr.fit.predict(arr.x, arr.y)
-            tol = min(max(JOIN_TOL_S, JOIN_SIGMAS * sd), JOIN_TOL_MAX_S)
-            err = abs(arr.onset - t_pred)
+            # The onset may fall anywhere between the sped-up and the constant-speed predictions
+            # (fronts also slow down), give or take the fit's sd and a model error growing with the
+            # time since the front's last passage.
+            t_acc, t_lin, sd = fr.fit.predict(arr.x, arr.y)
+            ahead = max(max(t_acc, t_lin) - fr.last_onset, 0.0)
+            tol = min(max(JOIN_TOL_S, JOIN_SIGMAS * math.hypot(sd, JOIN_MODEL_REL_ERR * ahead)), JOIN_TOL_MAX_S)
+            lo, hi = min(t_acc, t_lin), max(t_acc, t_lin)
+            t_pred = t_acc
+            err = lo - arr.onset if arr.onset < lo else (arr.onset - hi if arr.onset > hi else 0.0)
             if fr.stalled_at is not None and arr.onset > t_pred:
                 # A stalled front that moves on later: accept a late arrival further along.
                 err = 0.0 if fr.fit.progress(arr.x, arr.y) > fr.max_progress() else err

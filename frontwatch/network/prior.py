@@ -22,12 +22,12 @@ FROUDE_K = 0.7  # k in U = k sqrt(g'h): 0.7 to 1 in the field (from memory, DOMA
 MIN_DROP_K = 0.5  # a passage with less visible cooling still moves: floor on dtheta
 MIN_SPEED_MS = 0.7
 MAX_SPEED_MS = 8.0
-SPEED_REL_SD = 0.5  # wide: h and k are guesses
+SPEED_REL_SD = 0.7  # wide: h and k are guesses
 # A young front runs at about half the speed it reaches later in the day ("from under 3 to over
 # 6 m/s", Linacre & Geerts 1997); the prior is for the first passages, so it starts there and the
 # forecast's speed-up (fit.accelerated_eta) takes it toward the density-current speed.
 EARLY_FACTOR = 0.5
-HEADING_SD_DEG = 35.0
+HEADING_SD_DEG = 20.0  # fronts form along the coast and run roughly along its normal (common practice)
 
 
 @dataclass(frozen=True, slots=True)

@@ -11,11 +11,11 @@ Per minute, from the site station's observations:
   sqrt(2) x the residual sd, as for a sinusoid), 'steady', or 'unsettled';
 - 'new breeze filled in and steady': the 10-minute wind is onshore, at speed, with a small spread,
   and has stayed so for NEW_BREEZE_HOLD_MIN minutes; reported with the minute it first was so.
-A report goes out only when the summary changes meaningfully (the pattern, analysed every 3 minutes
-and believed when two analyses agree; the new-breeze flag, believed after 3 minutes; or the 10-minute
-direction or spread moved by
-REPORT_DIR_DEG since the last report). Thresholds are common practice on race committees, not
-from a published source; they are module constants.
+A report goes out only when the summary changes meaningfully: the pattern (analysed every 3 minutes,
+believed when two analyses agree) or the new-breeze flag (believed after 3 minutes) changes, or the
+10-minute direction or spread moved by REPORT_DIR_DEG since the last report (then at most every
+REPORT_MIN_GAP_S). Thresholds are common practice on race committees, not from a published source;
+they are module constants.
 """
 
 from __future__ import annotations
@@ -51,7 +51,8 @@ NEW_BREEZE_HOLD_MIN = 3
 NEW_BREEZE_LOSS_MIN = 5
 PATTERN_EVERY_MIN = 3
 PATTERN_HOLD = 2  # analyses in a row
-REPORT_DIR_DEG = 5.0
+REPORT_DIR_DEG = 10.0
+REPORT_MIN_GAP_S = 300.0  # between reports that only say the wind moved
 _YAM_B = 2.0 / math.sqrt(3.0) - 1.0  # Yamartino (1984) eq. 2 coefficient
 
 
@@ -228,6 +229,7 @@ class CourseMonitor:
         self.breeze_fail = 0
         self.new_breeze_since: float | None = None
         self.last_report: tuple[str, bool, float | None, float | None] | None = None
+        self.last_report_at = -1e18
 
     def add(self, t: float, dir_deg: float, speed_ms: float) -> None:
         m = float(t // 60.0)
@@ -329,11 +331,12 @@ class CourseMonitor:
                 moved = abs(angle_diff_deg(key[2], last[2])) >= REPORT_DIR_DEG
             if key[3] is not None and last[3] is not None and abs(key[3] - last[3]) >= REPORT_DIR_DEG:
                 moved = True
-            if not moved:
+            if not moved or now - self.last_report_at < REPORT_MIN_GAP_S:
                 return None
         if w10.n == 0 and last is None:
             return None
         self.last_report = key
+        self.last_report_at = now
         return CourseReport(self.site, now, self.axis_deg, wins, shift,
                             pat if pat.kind == self.pattern_kind else Pattern(self.pattern_kind, None, None, None),
                             self.new_breeze_since is not None, self.new_breeze_since)
@@ -345,7 +348,8 @@ class CourseMonitor:
                 "last_pattern": [self.last_pattern.kind, self.last_pattern.trend_deg, self.last_pattern.period_min,
                                  self.last_pattern.amplitude_deg],
                 "breeze": [self.breeze_run_start, self.breeze_run_len, self.breeze_fail, self.new_breeze_since],
-                "last_report": None if self.last_report is None else list(self.last_report)}
+                "last_report": None if self.last_report is None else list(self.last_report),
+                "last_report_at": self.last_report_at}
 
     def restore(self, s: dict[str, Any]) -> None:
         self.buckets = deque(([float(x) for x in b] for b in s["buckets"]), maxlen=self.buckets.maxlen)
@@ -353,5 +357,6 @@ class CourseMonitor:
         self.pattern_kind, self.pattern_candidate, self.pattern_count = s["pattern"]
         self.last_pattern = Pattern(*s["last_pattern"])
         self.breeze_run_start, self.breeze_run_len, self.breeze_fail, self.new_breeze_since = s["breeze"]
+        self.last_report_at = float(s["last_report_at"])
         lr = s["last_report"]
         self.last_report = None if lr is None else (lr[0], lr[1], lr[2], lr[3])

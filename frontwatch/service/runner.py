@@ -41,7 +41,8 @@ log = logging.getLogger("frontwatch.service")
 
 MAX_BATCH = 2000  # messages per consumer batch (one transaction)
 GATHER_TURNS = 64  # loop turns the consumer waits for a batch to fill while messages keep coming
-ACK_EVERY = 20  # commit and acknowledge at least this often (Mosquitto's in-flight window is 20)
+ACK_EVERY = 10  # commit and acknowledge at least this often: half Mosquitto's in-flight window of 20,
+GATHER_MAX = 10  # so the broker keeps sending the other half while the core works on a batch
 COMMIT_EVERY_S = 0.005  # ... or this long after the oldest unacknowledged message
 
 
@@ -274,7 +275,7 @@ class Service:
                     n = self._arrived()
                     await asyncio.sleep(0)
                     quiet = quiet + 1 if self._arrived() == n else 0
-                    if quiet >= 2 or len(self.inbox) >= MAX_BATCH:
+                    if quiet >= 2 or len(self.inbox) >= GATHER_MAX:
                         break
                 batch = [self.inbox.popleft() for _ in range(min(len(self.inbox), MAX_BATCH))]
                 self.metrics.queue_depth.set(len(self.inbox))

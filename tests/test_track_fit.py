@@ -103,3 +103,39 @@ def test_density_prior_matches_domain_check_value() -> None:
     # A following wind (from the east) is not applied (the paper's result is for opposing flow).
     fol = PassageFacts(270.0, -3.0, 300.0 - 273.15, dir_before_deg=90.0, speed_before_ms=2.0)
     assert density_prior([fol]).speed_ms == pytest.approx(EARLY_FACTOR * FROUDE_K * 7.00, abs=0.01)
+
+
+def test_accelerated_eta_hand_worked() -> None:
+    """Speed v (1 + a tau) with a = 0.2 per hour covers in tau hours what constant speed covers in
+    tau + a tau^2 / 2: one constant-speed hour is reached after (sqrt(1 + 2 a) - 1) / a =
+    (sqrt(1.4) - 1) / 0.2 = 0.9161 h. With the speed-up capped at 2 x (reached after 5 h, 7.5 h of
+    constant-speed travel), 10 h of constant-speed travel take 5 + (10 - 7.5) / 2 = 6.25 h."""
+    from frontwatch.network.fit import accelerated_eta
+
+    assert accelerated_eta(0.0, 3600.0, 0.2, 2.0) == pytest.approx((math.sqrt(1.4) - 1) / 0.2 * 3600.0, rel=1e-12)
+    assert (math.sqrt(1.4) - 1) / 0.2 == pytest.approx(0.9161, abs=1e-4)
+    assert accelerated_eta(0.0, 10 * 3600.0, 0.2, 2.0) == pytest.approx(6.25 * 3600.0, rel=1e-12)
+    assert accelerated_eta(100.0, 50.0) == 50.0  # upstream of the passages: unchanged
+    assert accelerated_eta(0.0, 3600.0, 0.0) == 3600.0
+
+
+def test_fitted_acceleration_term() -> None:
+    """Seven stations on a front moving east whose arrival time is t = q / 2 - 2e-6 q^2 (q metres
+    east): it speeds up. The fit finds the quadratic term, reports the speed at the furthest station
+    (1 / (0.5 - 4e-6 q_max)) and continues beyond it at that speed (no further speed-up assumed)."""
+    pts = []
+    for i, (x, y) in enumerate([(0, 0), (5000, 3000), (10000, -2000), (15000, 4000), (20000, -1000),
+                                (25000, 2500), (30000, -3000)]):
+        t = x / 2.0 - 2e-6 * x * x + (30.0 if i % 2 else -30.0)
+        pts.append((float(x), float(y), t))
+    f = fit_front(pts)
+    assert f is not None and f.curv != 0.0
+    assert f.curv == pytest.approx(-2e-6, rel=0.05)
+    assert f.speed_ms == pytest.approx(1.0 / (0.5 - 4e-6 * 30000.0), rel=0.05)
+    assert f.heading_deg == pytest.approx(90.0, abs=3.0)
+    t_end, _ = f.arrival(30000.0, 0.0)
+    t_beyond, _ = f.arrival(40000.0, 0.0)
+    assert (t_beyond - t_end) == pytest.approx(10000.0 / f.speed_ms, rel=0.05)
+    # Without the acceleration (constant speed), no quadratic term is kept.
+    g = fit_front([(x, y, x / 2.0 + (30.0 if i % 2 else -30.0)) for i, (x, y, _) in enumerate(pts)])
+    assert g is not None and g.curv == 0.0

@@ -253,15 +253,19 @@ def _fit_curved(arr: np.ndarray, ref: np.ndarray, tref: float, beta: np.ndarray,
     q = d @ u
     a = np.column_stack([np.ones(n), d, q * q])
     b = arr[:, 2] - tref
-    ata = a.T @ a
-    if np.linalg.cond(ata) > 1e15:
+    scale = np.linalg.norm(a, axis=0)  # columns differ by orders of magnitude (1, m, m^2)
+    scale[scale == 0] = 1.0
+    an = a / scale
+    ata = an.T @ an
+    if np.linalg.cond(ata) > 1e10:
         return None
-    bet = np.linalg.solve(ata, a.T @ b)
+    inv = np.linalg.inv(ata)
+    bet = (inv @ (an.T @ b)) / scale
     resid = b - a @ bet
     rss = float(resid @ resid)
     dof = n - 4
     sigma2 = max(rss / dof if dof > 0 else 0.0, onset_sigma_s**2)
-    cov = sigma2 * np.linalg.inv(ata)
+    cov = sigma2 * inv / np.outer(scale, scale)
     c = float(bet[3])
     se_c = math.sqrt(max(cov[3, 3], 0.0))
     if se_c == 0 or abs(c) < CURV_T * se_c:

@@ -33,6 +33,11 @@ def _r(x: float | None, nd: int = 1) -> float | None:
     return None if x is None or x != x else round(float(x), nd)
 
 
+def _finite(x: float) -> float | None:
+    """None for inf/NaN (a front that does not move has no finite speed): outputs stay strict JSON."""
+    return x if math.isfinite(x) else None
+
+
 def _iso(t: float | None) -> str | None:
     return None if t is None else iso_z(t)
 
@@ -174,8 +179,9 @@ def forecast_for_site(
     assert f is not None
     sp_sd, hd_sd = f.speed_heading_sd()
     common: dict[str, Any] = dict(
-        site=site, issued_at=now, front=front.key, front_speed_ms=f.speed_ms, front_heading_deg=f.heading_deg,
-        basis=front.basis, stations=len(front.arrivals), speed_sd_ms=sp_sd, heading_sd_deg=hd_sd,
+        site=site, issued_at=now, front=front.key, front_speed_ms=_finite(f.speed_ms),
+        front_heading_deg=f.heading_deg, basis=front.basis, stations=len(front.arrivals),
+        speed_sd_ms=_finite(sp_sd), heading_sd_deg=_finite(hd_sd),
         residual_rms_s=f.residual_rms_s, expected=_cached_expected(front), upstream_pending=upstream_pending,
     )
     if arrived_at is not None:
@@ -184,7 +190,7 @@ def forecast_for_site(
     if stall_progress is not None and f.progress(x, y) >= stall_progress:
         return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
                             reason="stalled", **common)
-    if f.speed_ms > 1e4 or eta < front.first_onset - 1800.0:
+    if not f.speed_ms < 1e4 or eta < front.first_onset - 1800.0:
         # The fit puts the site behind where the front started (or the front does not move).
         return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
                             reason="not_on_path", **common)

@@ -65,30 +65,32 @@ class Engine:
             self.detectors[st.id] = prototype.clone(st)
             self.qc[st.id] = StationQC(config.qc, st.id)
         self.watch = _make_watch(config)
+        self._pairs = {k: (self.qc[k], self.detectors[k]) for k in self.detectors}  # one lookup per record
 
     def feed(self, obs: Observation) -> list[Output]:
         """Take one observation (any station, event-time order per station) and return its outputs."""
         stats = self.stats
         stats.records += 1
-        det = self.detectors.get(obs.station)
-        if det is None:
+        pair = self._pairs.get(obs.station)
+        if pair is None:
             stats.unknown_stations[obs.station] += 1
             return []
-        clean, flags = self.qc[obs.station].check(obs)
+        clean, flags = pair[0].check(obs)
         if flags:
             for f in flags:
                 stats.qc[f] += 1
-        if clean is None:
-            return []
+            if clean is None:
+                return []
         stats.used += 1
-        stats.last_time[obs.station] = clean.time
-        out: list[Output] = []
-        ev = det.update(clean)
-        if ev is not None:
-            stats.events[ev.kind] += 1
-            out.append(ev)
-        if self.watch is not None:
-            out.extend(self.watch.observe(clean, ev))
+        stats.last_time[obs.station] = obs.time
+        ev = pair[1].update(clean)  # type: ignore[arg-type]
+        watch = self.watch
+        if ev is None:
+            return [] if watch is None else watch.observe(clean, None)
+        stats.events[ev.kind] += 1
+        out: list[Output] = [ev]
+        if watch is not None:
+            out.extend(watch.observe(clean, ev))
         return out
 
     def feed_many(self, observations: Any) -> list[Output]:
@@ -123,6 +125,7 @@ class Engine:
         for k, q in snap["qc"].items():
             if k in eng.qc:
                 eng.qc[k].restore(q)
+        eng._pairs = {k: (eng.qc[k], eng.detectors[k]) for k in eng.detectors}
         if eng.watch is not None and snap.get("watch") is not None:
             eng.watch.restore(snap["watch"])
         return eng

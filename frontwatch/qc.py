@@ -98,14 +98,30 @@ class StationQC:
         # Written out per quantity (not a loop over names): this runs for every record.
         tc = obs.temp_c
         if tc == tc:
-            bad = self._t.check(tc, t)
+            ch = self._t
+            # fast path (almost every record): in range, moving, a small step from the last value
+            if ch.lo <= tc <= ch.hi and tc != ch.run_value and abs(tc - ch.last) <= ch.step \
+                    and not ch.npend and t - ch.last_t <= 180.0:
+                ch.run_value = ch.last = tc
+                ch.run_start = ch.last_t = t
+                bad = None
+            else:
+                bad = ch.check(tc, t)
             if bad is not None:
                 flags.append("temp_" + bad)
                 tc = NAN
                 changed = True
         td = obs.dewpoint_c
         if td == td:
-            bad = self._d.check(td, t)
+            ch = self._d
+            # fast path (almost every record): in range, moving, a small step from the last value
+            if ch.lo <= td <= ch.hi and td != ch.run_value and abs(td - ch.last) <= ch.step \
+                    and not ch.npend and t - ch.last_t <= 180.0:
+                ch.run_value = ch.last = td
+                ch.run_start = ch.last_t = t
+                bad = None
+            else:
+                bad = ch.check(td, t)
             if bad is not None:
                 flags.append("dewpoint_" + bad)
                 td = NAN
@@ -128,7 +144,15 @@ class StationQC:
                     changed = True
         p = obs.pressure_hpa
         if p == p:
-            bad = self._p.check(p, t)
+            ch = self._p
+            # fast path (almost every record): in range, moving, a small step from the last value
+            if ch.lo <= p <= ch.hi and p != ch.run_value and abs(p - ch.last) <= ch.step \
+                    and not ch.npend and t - ch.last_t <= 180.0:
+                ch.run_value = ch.last = p
+                ch.run_start = ch.last_t = t
+                bad = None
+            else:
+                bad = ch.check(p, t)
             if bad is not None:
                 flags.append("pressure_" + bad)
                 p = NAN

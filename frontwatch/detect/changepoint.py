@@ -36,36 +36,46 @@ class Split:
     channel_split: np.ndarray  # per channel, the index of its own best split (its own change time)
 
 
+# Clamp drifts to diurnal rates (per minute: T 3.6 K/h, Td 1.8 K/h, p 0.6 hPa/h; common practice):
+# a steeper 'trend' is a change, and extrapolating it would hide the next one. Wind gets none.
+SLOPE_CAP = np.array([0.06, 0.03, 0.0, 0.0, 0.01])
+
+
 def _detrend_slopes(t: np.ndarray, x: np.ndarray, upto: int) -> np.ndarray:
-    """Least-squares drift per channel over samples [0, upto) for T, Td and p; wind gets none."""
-    slopes = np.zeros(x.shape[1])
+    """Least-squares drift per channel over samples [0, upto), all channels at once (NaN-aware)."""
     if upto < 8:
-        return slopes
-    tm = t[:upto] / 60.0
-    for c, cap in ((0, 0.06), (1, 0.03), (4, 0.01)):
-        col = x[:upto, c]
-        ok = ~np.isnan(col)
-        if ok.sum() < 8:
-            continue
-        tt = tm[ok]
-        yy = col[ok]
-        tc = tt - tt.mean()
-        den = float(np.dot(tc, tc))
-        if den > 0:
-            # Clamp to diurnal rates (per minute: T 3.6 K/h, Td 1.8 K/h, p 0.6 hPa/h; common practice):
-            # a steeper 'trend' is a change, and extrapolating it would hide the next one.
-            slopes[c] = float(np.clip(np.dot(tc, yy - yy.mean()) / den, -cap, cap))
-    return slopes
+        return np.zeros(x.shape[1])
+    tm = (t[:upto] / 60.0)[:, None]
+    y = x[:upto]
+    ok = ~np.isnan(y)
+    n = ok.sum(axis=0)
+    w = ok.astype(float)
+    yz = np.where(ok, y, 0.0)
+    with np.errstate(all="ignore"):
+        tbar = (w * tm).sum(axis=0) / n
+        ybar = yz.sum(axis=0) / n
+        tc = (tm - tbar) * w
+        den = (tc * tc).sum(axis=0)
+        slope = (tc * (yz - ybar * w)).sum(axis=0) / den
+    slope = np.where((n >= 8) & (den > 0) & np.isfinite(slope), slope, 0.0)
+    return np.clip(slope, -SLOPE_CAP, SLOPE_CAP)
 
 
 def _noise(x: np.ndarray) -> np.ndarray:
     """Per-channel noise: the larger of the first-difference estimate and half the spread."""
     d = np.abs(np.diff(x, axis=0))
+    okd = ~np.isnan(d)
+    ok = ~np.isnan(x)
+    nd_n = okd.sum(axis=0)
+    n = ok.sum(axis=0)
     with np.errstate(all="ignore"):
-        nd = 0.886 * np.nanmean(d, axis=0)  # white noise: E|diff| = 2 sigma / sqrt(pi)
-        sd = 0.5 * np.nanstd(x, axis=0)
-    nd = np.where(np.isnan(nd), np.inf, nd)
-    sd = np.where(np.isnan(sd), 0.0, sd)
+        nd = 0.886 * np.where(okd, d, 0.0).sum(axis=0) / nd_n  # white noise: E|diff| = 2 sigma / sqrt(pi)
+        xz = np.where(ok, x, 0.0)
+        mean = xz.sum(axis=0) / n
+        var = (np.where(ok, x - mean, 0.0) ** 2).sum(axis=0) / n
+        sd = 0.5 * np.sqrt(var)
+    nd = np.where(nd_n > 0, nd, np.inf)
+    sd = np.where(n > 0, sd, 0.0)
     return np.maximum(np.maximum(nd, sd), FLOORS)
 
 

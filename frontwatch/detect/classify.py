@@ -93,9 +93,8 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
             or (rain >= 1.0 and dT <= -1.5 and (gusty or dp >= 0.5)):
         conf = _logistic(-dT / s.gust_front_temp_drop_c * 2 + dp + gust / s.gust_front_gust_ms - 1.5)
         return Decision("gust_front", min(0.99, max(0.5, conf)), False)
-    # Still plunging, raining or jumping: it may yet turn out a gust front, so do not call it now.
-    if can_wait and (rate < -0.5 or rain > 0.2 or dp >= 0.6 * s.gust_front_pressure_jump_hpa or gusty):
-        return Decision(None, 0.0, True)
+    # Still plunging, raining or jumping: it may yet turn out a gust front (checked before calling one).
+    convective = rate < -0.5 or rain > 0.2 or dp >= 0.6 * s.gust_front_pressure_jump_hpa or gusty
 
     turned = (sig.turn_deg == sig.turn_deg and sig.turn_deg >= s.min_shift_deg) or (calm_before and not calm_after)
     daytime = s.day_start_h <= sig.local_hour < s.day_end_h
@@ -154,12 +153,17 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     wind_ok = came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))
     failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
                                     ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence)) if not ok]
+    if not failed and convective and can_wait:
+        return Decision(None, 0.0, True, evidence, "breeze front? convective signs: waiting for a gust front")
     if not failed:
         margin = marine / s.breeze_min_marine_index_c + (halfwidth - sig.after_offset_deg) / halfwidth \
             + evidence / s.breeze_min_evidence
         return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 2.0))), False, evidence)
     note = "breeze front? not " + ", ".join(failed)
-    if daytime and thermal and can_wait:
+    # Waiting costs a full evaluation a minute, so wait only while the wind is moving onshore
+    # (or is a running mean that lags): a thermal change alone, like a cloud shadow, is not a front.
+    wind_moving = sig.z_onshore >= 1.0 or averaging > 1 or calm_before
+    if daytime and thermal and can_wait and wind_moving:
         # The right kind of air but the wind or the evidence is not there yet (a smoothed vane, a
         # turn in progress, a weak change that must persist): look again next minute.
         return Decision(None, 0.0, True, evidence, note)

@@ -146,10 +146,17 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # happen to overlap change at different times. The vane of a running-mean station lags by
     # about half its averaging time.
     times = sig.change_times_min
-    coherent = sig.z_temp <= -1.5 and (dry_measure or sig.z_dewpoint >= 1.5)
+    # Which shifts are beyond the noise, in the marine direction: cooler, moister, more onshore.
+    sig_t = sig.z_temp <= -2.0
+    sig_d = (not dry_measure) and sig.z_dewpoint >= 2.0
+    coherent = sig_t or sig_d
     if coherent and len(times) == 3:
         lag = s.coherence_min + 0.5 * max(0, averaging - 1)
-        coherent = abs(times[2] - times[0]) <= lag and (dry_measure or abs(times[1] - times[0]) <= s.coherence_min)
+        ts = [times[i] for i, ok in ((0, sig_t), (1, sig_d)) if ok]
+        if sig.z_onshore >= 2.0:
+            coherent = all(abs(times[2] - x) <= lag for x in ts)
+        if coherent and len(ts) == 2:
+            coherent = abs(ts[0] - ts[1]) <= s.coherence_min
     wind_ok = came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))
     failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
                                     ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence)) if not ok]

@@ -12,6 +12,8 @@ chosen settings' held-out CSI >= the current settings'. The 30 settings are the 
 from __future__ import annotations
 
 import argparse
+import os
+import resource
 import shutil
 import subprocess
 import sys
@@ -72,9 +74,13 @@ def main(argv: list[str] | None = None) -> int:
                 print(f"  {done / max(total, 1):6.1%} of the work after {now - t1:.0f} s", flush=True)
 
         t1 = time.perf_counter()
+        cpu0 = resource.getrusage(resource.RUSAGE_CHILDREN)
+        self0 = resource.getrusage(resource.RUSAGE_SELF)
         res = tune(store, cfg, labels, space, store_dir=str(tmp / "store"), workers=args.workers,
                    progress=progress)
         wall = time.perf_counter() - t1
+        cpu1 = resource.getrusage(resource.RUSAGE_CHILDREN)  # the workers, reaped when the pool closed
+        self1 = resource.getrusage(resource.RUSAGE_SELF)
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
 
@@ -83,6 +89,12 @@ def main(argv: list[str] | None = None) -> int:
     full = sum(1 for t in res.trials if t.test is not None)
     print(f"search: {args.method}, {len(res.trials)} settings ({full} run over all days), "
           f"{args.workers} workers: wall {wall:.1f} s")
+    cpu_workers = (cpu1.ru_utime + cpu1.ru_stime) - (cpu0.ru_utime + cpu0.ru_stime)
+    cpu_main = (self1.ru_utime + self1.ru_stime) - (self0.ru_utime + self0.ru_stime)
+    load = os.getloadavg()
+    print(f"CPU: workers {cpu_workers:.1f} s, main process {cpu_main:.1f} s; load average now "
+          f"{load[0]:.1f} {load[1]:.1f} {load[2]:.1f} (the machine is shared: on {args.workers} idle cores the "
+          f"search would take about {(cpu_workers + cpu_main) / args.workers:.0f} s)")
     print(f"train days {len(res.train_days)}, held-out days {len(res.test_days)} (whole local days)")
     for name, t in (("chosen", b), ("current/default", c)):
         assert t.train is not None and t.test is not None

@@ -170,8 +170,11 @@ class ObsStore:
                    np.load(d / "station.npy", mmap_mode=mode), np.load(d / "day.npy", mmap_mode=mode),
                    bool(meta["qc_done"]))
 
-    def iter_observations(self, days: Iterable[int] | None = None, chunk: int = 65536) -> Iterator[Observation]:
-        """Rebuild Observations for the chosen local days (all days when None), in time order."""
+    def iter_observations(self, days: Iterable[int] | None = None, chunk: int = 65536,
+                          stations: Sequence[int] | None = None) -> Iterator[Observation]:
+        """Rebuild Observations for the chosen local days (all days when None), in time order;
+        only those of the station indices `stations` when given."""
+        pick = None if stations is None else np.asarray(sorted(stations), dtype=np.int32)
         sl = self.day_slices
         wanted = sorted(sl) if days is None else sorted(d for d in set(days) if d in sl)
         # Merge adjacent days into one range so the loop below runs over few, long slices.
@@ -186,10 +189,34 @@ class ObsStore:
         for s, e in ranges:
             for a in range(s, e, chunk):
                 b = min(a + chunk, e)
-                cols = [np.asarray(self.cols[f][a:b]).tolist() for f in FIELDS]
-                st = [names[i] for i in np.asarray(self.station_idx[a:b]).tolist()]
-                for row in zip(st, np.asarray(self.time[a:b]).tolist(), *cols, strict=True):
+                sidx = np.asarray(self.station_idx[a:b])
+                if pick is None:
+                    cols = [np.asarray(self.cols[f][a:b]).tolist() for f in FIELDS]
+                    tt = np.asarray(self.time[a:b]).tolist()
+                else:
+                    m = np.isin(sidx, pick)
+                    sidx = sidx[m]
+                    cols = [np.asarray(self.cols[f][a:b])[m].tolist() for f in FIELDS]
+                    tt = np.asarray(self.time[a:b])[m].tolist()
+                st = [names[i] for i in sidx.tolist()]
+                for row in zip(st, tt, *cols, strict=True):
                     yield Observation(*row)
+
+    def station_parts(self, n: int) -> list[list[int]]:
+        """Station indices in `n` groups of about equal record counts (greedy, largest first).
+
+        The station detectors are independent of each other, so one trial can run as `n` jobs,
+        one per group, and the events put together are those of the whole run."""
+        counts = np.bincount(np.asarray(self.station_idx), minlength=len(self.stations))
+        parts: list[list[int]] = [[] for _ in range(max(1, n))]
+        loads = [0] * len(parts)
+        for i in np.argsort(-counts, kind="stable").tolist():
+            if counts[i] == 0:
+                continue
+            k = loads.index(min(loads))
+            parts[k].append(int(i))
+            loads[k] += int(counts[i])
+        return [p for p in parts if p]
 
     def window(self, station: str, t0: float, t1: float) -> dict[str, np.ndarray]:
         """One station's records with t0 <= time <= t1, as arrays (for plots)."""
@@ -255,7 +282,8 @@ def apply_qc(store: ObsStore, config: NetworkConfig) -> ObsStore:
     return out
 
 
-def run_detector(store: ObsStore, config: NetworkConfig, days: Iterable[int] | None = None) -> list[PassageEvent]:
+def run_detector(store: ObsStore, config: NetworkConfig, days: Iterable[int] | None = None,
+                 stations: Sequence[int] | None = None) -> list[PassageEvent]:
     """The Engine over the store's records (only the detector matters here: sites are dropped).
 
     On a store that already went through apply_qc, the Engine's station detectors are fed the QC'd
@@ -268,13 +296,13 @@ def run_detector(store: ObsStore, config: NetworkConfig, days: Iterable[int] | N
     out: list[PassageEvent] = []
     if store.qc_done:
         dets = eng.detectors
-        for o in store.iter_observations(days):
+        for o in store.iter_observations(days, stations=stations):
             ev = dets[o.station].update(o)
             if ev is not None:
                 out.append(ev)
         return out
     feed = eng.feed
-    for o in store.iter_observations(days):
+    for o in store.iter_observations(days, stations=stations):
         for x in feed(o):
             if isinstance(x, PassageEvent):
                 out.append(x)
@@ -485,9 +513,10 @@ def _worker_init(store_dir: str, config_json: str) -> None:
     _W["config"] = NetworkConfig.model_validate_json(config_json)
 
 
-def _worker_run(changes: dict[str, Any], days: list[int] | None) -> list[PassageEvent]:
+def _worker_run(changes: dict[str, Any], days: list[int] | None,
+                stations: list[int] | None = None) -> list[PassageEvent]:
     cfg: NetworkConfig = _W["config"].with_detector(**changes)
-    return run_detector(_W["store"], cfg, days)
+    return run_detector(_W["store"], cfg, days, stations)
 
 
 def _label_predicate(target: str) -> Callable[[Label], bool]:
@@ -524,10 +553,21 @@ class _Runner:
                 res.append(run_detector(self.store, self.config.with_detector(**ch), days))
                 self.progress(work)
             return res
-        futs: list[Future[list[PassageEvent]]] = [self.pool.submit(_worker_run, ch, days) for ch, days, _ in jobs]
-        for f, (_, _, work) in zip(futs, jobs, strict=True):
-            f.add_done_callback(self._ticker(work))
-        return [f.result() for f in futs]
+        # Each trial as one job per group of stations, so the workers stay busy to the end of a rung
+        # even when the trials do not divide evenly among them.
+        parts = self.store.station_parts(self.workers) if self.store.qc_done else [None]
+        futs: list[list[Future[list[PassageEvent]]]] = []
+        for ch, days, work in jobs:
+            row = [self.pool.submit(_worker_run, ch, days, part) for part in parts]
+            for f in row:
+                f.add_done_callback(self._ticker(work / len(parts)))
+            futs.append(row)
+        out = []
+        for row in futs:
+            evs = [e for f in row for e in f.result()]
+            evs.sort(key=lambda e: (e.detected_at, e.station))
+            out.append(evs)
+        return out
 
     def _ticker(self, work: float) -> Callable[[Future[list[PassageEvent]]], None]:
         def done(_f: Future[list[PassageEvent]]) -> None:

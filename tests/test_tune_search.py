@@ -135,6 +135,11 @@ def test_store_round_trip_gives_the_same_events(scenario: tuple[Path, Path, Path
     loaded = ObsStore.load(tmp_path / "cache")
     assert loaded.qc_done  # the search path: QC once, detectors fed directly
     assert [e.to_dict() for e in run_detector(loaded, cfg)] == ref
+    # the station detectors are independent: a run split by station groups gives the same events
+    parts = loaded.station_parts(2)
+    assert sorted(sum(parts, [])) == [0, 1]
+    split = [e.to_dict() for p in parts for e in run_detector(loaded, cfg, stations=p)]
+    assert sorted(split, key=lambda d: (d["onset"], d["station"])) == sorted(ref, key=lambda d: (d["onset"], d["station"]))
     raw, _ = build_store([obs], cfg)  # the Engine.feed path
     assert not raw.qc_done and [e.to_dict() for e in run_detector(raw, cfg)] == ref
     assert sum(1 for e in ref if e["kind"] == "breeze_front") >= 6
@@ -174,6 +179,10 @@ def test_tune_finds_the_day_window_and_writes_toml(scenario: tuple[Path, Path, P
                       "params": {"day_start_h": {"values": [8.0, 10.0, 14.0]}, "min_score": {"values": [4.0, 5.0, 6.0]}}})
     res = tune(store, cfg, read_labels(lab), sp, workers=workers)
     assert not set(res.train_days) & set(res.test_days) and len(res.test_days) == 2
+    # every label is scored in exactly one half, the half of its own local day
+    assert res.best.train.n_labels + res.best.test.n_labels == 8  # type: ignore[union-attr]
+    day0 = int(local_day_numbers(np.array([LOCAL_MIDNIGHT + 3600.0]), cfg.tz)[0])
+    assert res.best.test.n_labels == 2 * sum(1 for d in BREEZE_DAYS if day0 + d in res.test_days)  # type: ignore[union-attr]
     assert res.current.changes == {} and res.current.settings.day_start_h == 14.0
     assert res.best.settings.day_start_h <= 10.0  # the fronts pass 12:30-14:45 local
     assert res.best.test is not None and res.current.test is not None

@@ -272,7 +272,9 @@ def _fit_curved(arr: np.ndarray, ref: np.ndarray, tref: float, beta: np.ndarray,
         return None
     q_lo, q_hi = float(q.min()), float(q.max())
     local = float(bet[1] * u[0] + bet[2] * u[1]) + 2.0 * c * q_hi
-    if local < 1.0 / MAX_SPEED_MS:
+    # The speed at the last station must stay plausible: below MAX_SPEED_MS and within the
+    # speed-up (or slow-down) factor ACCEL_MAX_FACTOR of the constant-speed fit.
+    if local < max(1.0 / MAX_SPEED_MS, s / ACCEL_MAX_FACTOR) or local > s * ACCEL_MAX_FACTOR:
         return None
     return FrontFit(
         t0=tref + float(bet[0]), sx=float(bet[1]), sy=float(bet[2]), ref=(float(ref[0]), float(ref[1])),

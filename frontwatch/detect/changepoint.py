@@ -22,6 +22,7 @@ import numpy as np
 CHANNELS = ("temp", "dewpoint", "onshore", "alongshore", "pressure")
 FLOORS = np.array([0.06, 0.08, 0.25, 0.25, 0.05])  # smallest credible noise per channel (sensor resolution)
 START_FRACTION = 0.5
+SPREAD_FACTOR = 0.5  # weight of the pre-window spread (slow wander) in the noise scale
 
 
 @dataclass(frozen=True, slots=True)
@@ -73,7 +74,7 @@ def _noise(x: np.ndarray) -> np.ndarray:
         xz = np.where(ok, x, 0.0)
         mean = xz.sum(axis=0) / n
         var = (np.where(ok, x - mean, 0.0) ** 2).sum(axis=0) / n
-        sd = 0.5 * np.sqrt(var)
+        sd = SPREAD_FACTOR * np.sqrt(var)
     nd = np.where(nd_n > 0, nd, np.inf)
     sd = np.where(n > 0, sd, 0.0)
     return np.maximum(np.maximum(nd, sd), FLOORS)

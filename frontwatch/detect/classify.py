@@ -90,7 +90,8 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     if (dT <= -s.gust_front_temp_drop_c and (gusty or dp >= 0.5 * s.gust_front_pressure_jump_hpa or rain > 0.2)) \
             or (dp >= s.gust_front_pressure_jump_hpa and dT <= -1.5) \
             or (dT <= -s.gust_front_temp_drop_c * 1.3) \
-            or (rain >= 1.0 and dT <= -1.5 and (gusty or dp >= 0.5)):
+            or (rain >= 1.0 and dT <= -1.5 and (gusty or dp >= 0.5)) \
+            or (rain >= 0.2 and dT <= -1.5):  # a rain-cooled outflow, even without gust or pressure data
         conf = _logistic(-dT / s.gust_front_temp_drop_c * 2 + dp + gust / s.gust_front_gust_ms - 1.5)
         return Decision("gust_front", min(0.99, max(0.5, conf)), False)
     # Still plunging, raining or jumping: it may yet turn out a gust front (checked before calling one).
@@ -157,9 +158,10 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
             coherent = all(abs(times[2] - x) <= lag for x in ts)
         if coherent and len(ts) == 2:
             coherent = abs(ts[0] - ts[1]) <= s.coherence_min
+    dry = rain < 0.2  # rain at the change means convection, not a breeze front (DOMAIN.md section 3)
     wind_ok = came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))
     failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
-                                    ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence)) if not ok]
+                                    ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence), ("dry", dry)) if not ok]
     if not failed and convective and can_wait:
         return Decision(None, 0.0, True, evidence, "breeze front? convective signs: waiting for a gust front")
     if not failed:

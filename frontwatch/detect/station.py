@@ -207,7 +207,8 @@ class StationDetector:
         pj = float(np.nanmax(p_after) - pre[4]) if np.isfinite(p_after).any() and pre[4] == pre[4] else NAN
         g = arr[o:, _G]
         gust = float(np.nanmax(g)) if np.isfinite(g).any() else NAN
-        rr = arr[max(o - 5, 0):, _R]
+        # rain from half an hour before the onset: a rain-cooled outflow starts with its rain
+        rr = arr[int(np.searchsorted(t, t_o - 1800.0, side="left")):, _R]
         rain = float(np.nansum(rr)) if np.isfinite(rr).any() else NAN
         du, dv = (ur - u0, vr - v0) if ur == ur and u0 == u0 else (NAN, NAN)
         dspd = math.hypot(du, dv) if du == du else NAN

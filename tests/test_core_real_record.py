@@ -1,0 +1,47 @@
+"""Regression on an excerpt of the shared real record (tests/data/README.md gives the attribution:
+data.gov.sg via github.com/grandey/access-data-gov-sg, Singapore Open Data Licence 1.0).
+
+The days were judged by tools/real_record_days.py (a rule written before looking at the detector's
+output): breeze-front passages early in the afternoon of 2017-02-05 (about 13:27 local) and
+2017-03-22 (about 13:50); on 2017-04-15 a rain storm from 14:44 local whose outflow must not be
+called a breeze front.
+"""
+
+from __future__ import annotations
+
+from datetime import UTC, datetime, timedelta
+from pathlib import Path
+
+from frontwatch.config import load_network
+from frontwatch.replay import run_replay
+
+ROOT = Path(__file__).resolve().parents[1]
+LOCAL = timedelta(hours=8)
+
+
+def _events():
+    cfg = load_network(ROOT / "examples/real-coastal-s116.toml")
+    res = run_replay([ROOT / "tests/data/real-s116-excerpt.csv.gz"], cfg)
+    return [(datetime.fromtimestamp(e.onset, UTC).replace(tzinfo=None) + LOCAL, e) for e in res.events]
+
+
+def test_judged_passages_are_flagged_as_breeze_fronts():
+    evs = _events()
+    for day, lo, hi in (("2017-02-05", "13:00", "14:30"), ("2017-03-22", "13:20", "14:40")):
+        t0 = datetime.fromisoformat(f"{day} {lo}")
+        t1 = datetime.fromisoformat(f"{day} {hi}")
+        hits = [e for t, e in evs if e.kind == "breeze_front" and t0 <= t <= t1]
+        assert len(hits) == 1, (day, [(t, e.kind) for t, e in evs])
+        assert hits[0].temp_change_c < 0 and hits[0].dewpoint_change_c > 0
+
+
+def test_no_breeze_front_at_night_or_in_the_rain_outflow():
+    evs = _events()
+    for t, e in evs:
+        if e.kind != "breeze_front":
+            continue
+        assert 8 <= t.hour < 20, (t, e.id)
+        assert not (datetime(2017, 4, 15, 14, 30) <= t <= datetime(2017, 4, 15, 17, 30)), (t, e.id)
+    # the storm itself is reported, as convective outflow
+    assert any(e.kind == "gust_front" and datetime(2017, 4, 15, 14, 30) <= t <= datetime(2017, 4, 15, 15, 30)
+               for t, e in evs)

@@ -149,6 +149,7 @@ def test_eta_errors_reported(scenario: Any, oracle_out: list[dict[str, Any]]) ->
     assert sum(inside) >= 0.8 * len(inside)
 
 
+@pytest.mark.slow  # two passes of the whole core over 3 days of 12 stations: about 10 s
 def test_whole_core_outputs_are_valid_deterministic_and_resumable(scenario: Any) -> None:
     cfg = parse_network(scenario.network, "sim")
     obs = list(observations(decode_frame(scenario.observations, cfg, "sim")))

@@ -21,7 +21,7 @@ test: $(STAMP)
 	$(BIN)/python -m pytest -q
 
 check: $(STAMP)
-	$(BIN)/ruff check frontwatch tests bench
+	$(BIN)/ruff check frontwatch tests bench tools
 	$(BIN)/mypy
 
 bench: $(STAMP)

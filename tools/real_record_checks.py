@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import json
 import sys
+from pathlib import Path
 
 import numpy as np
 
@@ -28,7 +29,7 @@ def main() -> None:
     t = d.columns["time"]
     rain = d.columns.get("rain_mm", np.zeros(len(t)))
     clock = LocalClock(cfg.tz)
-    evs = [json.loads(x) for x in open(evp)]
+    evs = [json.loads(x) for x in Path(evp).read_text().splitlines()]
     bf = [e for e in evs if e["kind"] == "breeze_front"]
     night = [e for e in bf if not 8 <= clock.hour(parse_time(e["onset"])) < 20]
     wet = [e for e in bf if rain_near(t, rain, parse_time(e["onset"])) > 0]

@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import json
 import sys
+from pathlib import Path
 
 import numpy as np
 
@@ -84,7 +85,7 @@ def main() -> None:
     for day, tt in sorted(days.items()):
         print(f"  {day} about {clock.hour(tt):05.2f} local")
     if len(sys.argv) > 3:
-        evs = [json.loads(x) for x in open(sys.argv[3])]
+        evs = [json.loads(x) for x in Path(sys.argv[3]).read_text().splitlines()]
         from frontwatch.timeutil import parse_time
 
         got = {}

@@ -35,6 +35,14 @@ class Split:
     slope: np.ndarray  # per-minute drift removed (per channel; zero for wind)
     detrended: np.ndarray  # the window with that drift removed, NaN kept
     channel_split: np.ndarray  # per channel, the index of its own best split (its own change time)
+    csum: np.ndarray  # (n+1, C) cumulative sums of the detrended window (NaN as 0) ...
+    ccount: np.ndarray  # ... and of valid counts: any range mean in O(1)
+
+    def range_mean(self, lo: int, hi: int) -> tuple[np.ndarray, np.ndarray]:
+        """Per-channel mean and count of the detrended samples [lo, hi) (NaN mean when empty)."""
+        cnt = self.ccount[hi] - self.ccount[lo]
+        with np.errstate(all="ignore"):
+            return (self.csum[hi] - self.csum[lo]) / cnt, cnt
 
 
 # Clamp drifts to diurnal rates (per minute: T 3.6 K/h, Td 1.8 K/h, p 0.6 hPa/h; common practice):
@@ -138,4 +146,4 @@ def best_split(
         # the change must be under way at the onset sample itself
         while onset < j and frac[onset] < START_FRACTION:
             onset += 1
-    return Split(onset, j, float(np.sqrt(s[k])), sigma, pre_mean, slope, xd, channel_split)
+    return Split(onset, j, float(np.sqrt(s[k])), sigma, pre_mean, slope, xd, channel_split, cs, cn)

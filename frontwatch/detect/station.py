@@ -163,19 +163,16 @@ class StationDetector:
         wind_lo = int(np.searchsorted(t, t_o - 15 * 60.0, side="left"))
         rec_lo = max(o, n - 3)
         xd = sp.detrended
+        pre, n_pre = sp.range_mean(pre_lo, o)
+        rec, _ = sp.range_mean(rec_lo, n)
+        # Significance of each channel's shift over the whole 'after' so far: a change that
+        # persists gains evidence minute by minute, a wobble that reverts loses it.
+        post, n_post = sp.range_mean(o, n)
         with np.errstate(all="ignore"):
-            pre = np.nanmean(xd[pre_lo:o], axis=0) if o > pre_lo else np.full(5, NAN)
-            rec = np.nanmean(xd[rec_lo:], axis=0)
-            # Significance of each channel's shift over the whole 'after' so far: a change that
-            # persists gains evidence minute by minute, a wobble that reverts loses it.
-            post = np.nanmean(xd[o:], axis=0)
-            n_pre = np.sum(np.isfinite(xd[pre_lo:o]), axis=0)
-            n_post = np.sum(np.isfinite(xd[o:]), axis=0)
             z = (post - pre) / sp.sigma * np.sqrt(n_pre * n_post / np.maximum(n_pre + n_post, 1))
-            u0 = _nanmean(arr[wind_lo:o, _U])
-            v0 = _nanmean(arr[wind_lo:o, _V])
-            ur = _nanmean(arr[rec_lo:, _U])
-            vr = _nanmean(arr[rec_lo:, _V])
+        rows = list(self.ring)  # the small parts below are cheaper in plain Python than in numpy
+        u0, v0 = _mean2(rows, wind_lo, o, _U, _V)
+        ur, vr = _mean2(rows, rec_lo, n, _U, _V)
         if self.averaging > 1 and ur == ur and u0 == u0:
             # The station reports an A-minute running mean: after k minutes only k/A of the new wind
             # is in it, so un-smear the latest mean towards the wind that is actually blowing.
@@ -190,26 +187,33 @@ class StationDetector:
         d1 = _dir_from(ur, vr) if s1 == s1 and s1 >= st.calm_ms else NAN
         onshore = (math.degrees(math.atan2(self._sin_o, self._cos_o)) + 360.0) % 360.0
         # spread of the recent wind: circular std of the per-sample directions (Mardia's sqrt(-2 ln R))
-        uu = arr[rec_lo:, _U]
-        vv = arr[rec_lo:, _V]
-        ss = np.hypot(uu, vv)
-        okw = np.isfinite(ss) & (ss > 0)
-        if okw.sum() >= 1:
-            rlen = math.hypot(float(np.mean(uu[okw] / ss[okw])), float(np.mean(vv[okw] / ss[okw])))
+        cx = cy = 0.0
+        k = 0
+        for r in rows[rec_lo:]:
+            sp_ = math.hypot(r[_U], r[_V])
+            if sp_ > 0:  # NaN compares false
+                cx += r[_U] / sp_
+                cy += r[_V] / sp_
+                k += 1
+        if k:
+            rlen = math.hypot(cx / k, cy / k)
             spread = math.degrees(math.sqrt(-2.0 * math.log(min(1.0, max(rlen, 1e-9)))))
         else:
             spread = 180.0
-        tc = arr[:, _TC]
         rate = NAN
-        if n - 3 >= o and np.isfinite(tc[-1]) and np.isfinite(tc[-3]):
-            rate = (tc[-1] - tc[-3]) / ((t[-1] - t[-3]) / 60.0)
-        p_after = xd[o:, 4]
-        pj = float(np.nanmax(p_after) - pre[4]) if np.isfinite(p_after).any() and pre[4] == pre[4] else NAN
-        g = arr[o:, _G]
-        gust = float(np.nanmax(g)) if np.isfinite(g).any() else NAN
+        if n - 3 >= o:
+            a, b = rows[-3], rows[-1]
+            if a[_TC] == a[_TC] and b[_TC] == b[_TC]:
+                rate = (b[_TC] - a[_TC]) / ((b[_T] - a[_T]) / 60.0)
+        p_after = [v for v in xd[o:, 4].tolist() if v == v]
+        pj = max(p_after) - float(pre[4]) if p_after and pre[4] == pre[4] else NAN
+        gusts = [r[_G] for r in rows[o:] if r[_G] == r[_G]]
+        gust = max(gusts) if gusts else NAN
         # rain from half an hour before the onset: a rain-cooled outflow starts with its rain
-        rr = arr[int(np.searchsorted(t, t_o - 1800.0, side="left")):, _R]
-        rain = float(np.nansum(rr)) if np.isfinite(rr).any() else NAN
+        rains = [r[_R] for r in rows if r[_T] >= t_o - 1800.0 and r[_R] == r[_R]]
+        rain = sum(rains) if rains else NAN
+        deps = [r[_TC] - r[_TD] for r in rows[rec_lo:] if r[_TC] - r[_TD] == r[_TC] - r[_TD]]
+        depression = sum(deps) / len(deps) if deps else NAN
         du, dv = (ur - u0, vr - v0) if ur == ur and u0 == u0 else (NAN, NAN)
         dspd = math.hypot(du, dv) if du == du else NAN
         dchg = _dir_from(du, dv) if dspd == dspd and dspd > 0 else NAN
@@ -225,7 +229,7 @@ class StationDetector:
             z_temp=_nz0(float(z[0])), z_dewpoint=_nz0(float(z[1])), z_onshore=_nz0(float(z[2])),
             temp_change=float(rec[0] - pre[0]), temp_rate=rate, dewpoint_change=float(rec[1] - pre[1]),
             pressure_change=float(rec[4] - pre[4]), pressure_jump=pj, gust_after=gust, rain_after=rain,
-            depression_after=_nanmean(arr[rec_lo:, _TC] - arr[rec_lo:, _TD]),
+            depression_after=depression,
             # minutes between the temperature's, the dewpoint's and the onshore wind's own change times
             change_times_min=tuple(float((t[i] - t_o) / 60.0) for i in sp.channel_split[:3]),
         )
@@ -244,6 +248,19 @@ class StationDetector:
         self.quiet_until = float(snap["quiet_until"])
         self.last_onset = {k: float(v) for k, v in snap["last_onset"].items()}
         self.last_evidence = {k: float(v) for k, v in snap["last_evidence"].items()}
+
+
+def _mean2(rows: list[tuple[float, ...]], lo: int, hi: int, i: int, j: int) -> tuple[float, float]:
+    """Means of columns i and j over rows[lo:hi], skipping rows where either is NaN."""
+    si = sj = 0.0
+    k = 0
+    for r in rows[lo:hi]:
+        a, b = r[i], r[j]
+        if a == a and b == b:
+            si += a
+            sj += b
+            k += 1
+    return (si / k, sj / k) if k else (NAN, NAN)
 
 
 def _nanmean(a: np.ndarray) -> float:

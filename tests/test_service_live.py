@@ -242,3 +242,32 @@ async def test_messages_sent_while_away_arrive_after_a_restart(broker_url: str, 
                      "wind_speed_ms": 2.0, "wind_dir_deg": 200} for k in range(5)]
             await publish_messages([(0.0, f"{prefix}/obs/GR02", json.dumps(r).encode(), 1) for r in recs],
                                    st.but(client_id=prefix + "-pub"))
+
+
+async def test_stops_promptly_with_a_browser_following_the_event_stream(broker_url: str, prefix: str,  # type: ignore[no-untyped-def]
+                                                                        scenario) -> None:
+    cfg = load_network(scenario[0])
+    svc = Service(cfg, _settings(broker_url, prefix, http_port=0))
+    stop = asyncio.Event()
+    run = asyncio.create_task(svc.run(stop))
+    assert await wait_until(lambda: svc.connected.is_set() and svc.web_ready.is_set(), 10)
+    await asyncio.sleep(0.2)
+    opened = asyncio.Event()
+
+    async def follow() -> None:
+        async with httpx.AsyncClient(timeout=None) as h, \
+                h.stream("GET", f"http://127.0.0.1:{svc.web_port}/api/stream") as r:
+            opened.set()
+            async for _ in r.aiter_lines():
+                pass
+
+    reader = asyncio.create_task(follow())
+    await asyncio.wait_for(opened.wait(), 5)
+    loop = asyncio.get_running_loop()
+    t0 = loop.time()
+    stop.set()
+    await asyncio.wait_for(run, 8)
+    assert loop.time() - t0 < 5
+    reader.cancel()
+    with contextlib.suppress(asyncio.CancelledError, httpx.HTTPError):
+        await reader

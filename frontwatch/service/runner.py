@@ -497,8 +497,12 @@ class Service:
         try:
             await self._stopping.wait()
         finally:
+            self.hub.close()  # open event streams end, or the graceful stop would wait for them
             server.should_exit = True
-            await task
+            try:
+                await asyncio.wait_for(task, 10)
+            except TimeoutError:
+                log.warning("the web server did not stop within 10 s")
             sock.close()
 
 

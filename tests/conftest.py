@@ -98,7 +98,7 @@ def _clear_retained(url: str, prefix: str) -> None:
 
 
 @pytest.fixture(scope="session")
-def scenario(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path]:
+def svc_scenario(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, Path]:
     """(network file, observations CSV): three stations, two days with one passage each a day."""
     import service_scenario
 

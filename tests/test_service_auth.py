@@ -66,9 +66,9 @@ def _settings(port: int, prefix: str, ca: Path | None, user: str | None, pw: str
                            backoff_min_s=0.1, backoff_max_s=0.5)
 
 
-async def test_tls_with_password_delivers(secure_broker, prefix: str, scenario) -> None:  # type: ignore[no-untyped-def]
+async def test_tls_with_password_delivers(secure_broker, prefix: str, svc_scenario) -> None:  # type: ignore[no-untyped-def]
     m, ca = secure_broker
-    cfg = load_network(scenario[0])
+    cfg = load_network(svc_scenario[0])
     st = _settings(m.port, prefix, ca, "station-feed", "s3cret-Gannet")
     svc = Service(cfg, st)
     stop = asyncio.Event()
@@ -85,10 +85,10 @@ async def test_tls_with_password_delivers(secure_broker, prefix: str, scenario) 
 @pytest.mark.parametrize("user,pw,ca", [("station-feed", "wrong", True), (None, None, True),
                                         ("station-feed", "s3cret-Gannet", False)],
                          ids=["bad-password", "anonymous", "untrusted-certificate"])
-async def test_refused_without_the_right_credentials(secure_broker, prefix: str, scenario, user, pw, ca,  # type: ignore[no-untyped-def]
+async def test_refused_without_the_right_credentials(secure_broker, prefix: str, svc_scenario, user, pw, ca,  # type: ignore[no-untyped-def]
                                                      caplog) -> None:
     m, ca_file = secure_broker
-    cfg = load_network(scenario[0])
+    cfg = load_network(svc_scenario[0])
     svc = Service(cfg, _settings(m.port, prefix, ca_file if ca else None, user, pw))
     stop = asyncio.Event()
     run = asyncio.create_task(svc.run(stop))

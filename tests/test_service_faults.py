@@ -47,8 +47,8 @@ def _by_id(events: list[dict[str, object]]) -> list[dict[str, object]]:
 
 
 @pytest.mark.skipif(not have_mosquitto(), reason="needs the mosquitto binary to stop and restart a broker")
-async def test_broker_restart_mid_stream_loses_and_repeats_nothing(prefix: str, scenario, tmp_path) -> None:  # type: ignore[no-untyped-def]
-    net, obs = scenario
+async def test_broker_restart_mid_stream_loses_and_repeats_nothing(prefix: str, svc_scenario, tmp_path) -> None:  # type: ignore[no-untyped-def]
+    net, obs = svc_scenario
     cfg = load_network(net)
     ref = [e.to_dict() for e in run_replay([obs], cfg).events]
     mq = Mosquitto(tmp_path / "broker")
@@ -131,8 +131,8 @@ async def _publish_paced(msgs: list[tuple[float, str, bytes, int]], st: ServiceS
 
 
 async def test_sigkill_and_restart_from_snapshot_reports_each_passage_once(broker_url: str, prefix: str,  # type: ignore[no-untyped-def]
-                                                                           scenario, tmp_path) -> None:
-    net, obs = scenario
+                                                                           svc_scenario, tmp_path) -> None:
+    net, obs = svc_scenario
     cfg = load_network(net)
     ref = [e.to_dict() for e in run_replay([obs], cfg).events]
     msgs = plan_messages(read_observations([obs], cfg), prefix)

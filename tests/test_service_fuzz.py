@@ -72,12 +72,12 @@ def bad_payload(rng: random.Random) -> tuple[str, bytes]:
     return "GR01", b"{" + rng.randbytes(rng.randrange(1, 50)).replace(b"}", b"") + b"\x00"
 
 
-def test_generator_makes_one_refusal_each(scenario) -> None:  # type: ignore[no-untyped-def]
+def test_generator_makes_one_refusal_each(svc_scenario) -> None:  # type: ignore[no-untyped-def]
     """The generator itself, checked against the decoder (with the network's zone for naive times, as
     the service decodes) so the count below means something."""
     from frontwatch.obs import decode_payload
 
-    tz = load_network(scenario[0]).naive_tz
+    tz = load_network(svc_scenario[0]).naive_tz
     rng = random.Random(1)
     for _ in range(3000):
         st, p = bad_payload(rng)
@@ -85,8 +85,8 @@ def test_generator_makes_one_refusal_each(scenario) -> None:  # type: ignore[no-
         assert not good and len(bad) == 1, p[:80]
 
 
-async def test_fuzz_ten_thousand_bad_payloads(broker_url: str, prefix: str, scenario) -> None:  # type: ignore[no-untyped-def]
-    net, _ = scenario
+async def test_fuzz_ten_thousand_bad_payloads(broker_url: str, prefix: str, svc_scenario) -> None:  # type: ignore[no-untyped-def]
+    net, _ = svc_scenario
     cfg = load_network(net)
     st = ServiceSettings(broker=parse_broker_url(broker_url), prefix=prefix, client_id=prefix + "-svc",
                          db_path=None, http_port=None)

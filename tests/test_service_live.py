@@ -41,8 +41,8 @@ async def _collect(url: str, topic: str, into: list[tuple[str, bytes, bool]], re
             into.append((m.topic.value, bytes(m.payload), m.retain))  # type: ignore[arg-type]
 
 
-async def test_live_events_equal_replay(broker_url: str, prefix: str, scenario, tmp_path) -> None:  # type: ignore[no-untyped-def]
-    net, obs = scenario
+async def test_live_events_equal_replay(broker_url: str, prefix: str, svc_scenario, tmp_path) -> None:  # type: ignore[no-untyped-def]
+    net, obs = svc_scenario
     cfg = load_network(net)
     reference = run_replay([obs], cfg)
     ref_events = [e.to_dict() for e in reference.events]
@@ -79,8 +79,8 @@ async def test_live_events_equal_replay(broker_url: str, prefix: str, scenario, 
     assert svc.engine.stats.records == reference.stats.records
 
 
-async def test_refused_payloads_counted_by_reason(broker_url: str, prefix: str, scenario) -> None:  # type: ignore[no-untyped-def]
-    net, obs = scenario
+async def test_refused_payloads_counted_by_reason(broker_url: str, prefix: str, svc_scenario) -> None:  # type: ignore[no-untyped-def]
+    net, obs = svc_scenario
     cfg = load_network(net)
     st = _settings(broker_url, prefix, http_port=0)
     metrics = ServiceMetrics()
@@ -129,9 +129,9 @@ async def test_refused_payloads_counted_by_reason(broker_url: str, prefix: str, 
     await run
 
 
-async def test_last_will_says_offline_when_the_service_dies(broker_url: str, prefix: str, scenario) -> None:  # type: ignore[no-untyped-def]
+async def test_last_will_says_offline_when_the_service_dies(broker_url: str, prefix: str, svc_scenario) -> None:  # type: ignore[no-untyped-def]
     """A crash (connection dropped without DISCONNECT) leaves the retained status 'offline'."""
-    net, _ = scenario
+    net, _ = svc_scenario
     cfg = load_network(net)
     st = _settings(broker_url, prefix)
     svc = Service(cfg, st)
@@ -221,11 +221,11 @@ async def test_demo_scenario_through_a_gateway_gives_every_replay_output(broker_
 
 
 @pytest.mark.parametrize("mqtt5", [False, True], ids=["mqtt311", "mqtt5"])
-async def test_messages_sent_while_away_arrive_after_a_restart(broker_url: str, prefix: str, scenario,  # type: ignore[no-untyped-def]
+async def test_messages_sent_while_away_arrive_after_a_restart(broker_url: str, prefix: str, svc_scenario,  # type: ignore[no-untyped-def]
                                                                tmp_path, mqtt5: bool) -> None:
     """The session persists at the broker (clean_session false / MQTT 5 session expiry), so what is
     published while the service is stopped is delivered when it comes back."""
-    cfg = load_network(scenario[0])
+    cfg = load_network(svc_scenario[0])
     st = _settings(broker_url, prefix, mqtt5=mqtt5, db_path=tmp_path / "s.sqlite")
     for phase in range(2):
         svc = Service(cfg, st)
@@ -245,8 +245,8 @@ async def test_messages_sent_while_away_arrive_after_a_restart(broker_url: str, 
 
 
 async def test_stops_promptly_with_a_browser_following_the_event_stream(broker_url: str, prefix: str,  # type: ignore[no-untyped-def]
-                                                                        scenario) -> None:
-    cfg = load_network(scenario[0])
+                                                                        svc_scenario) -> None:
+    cfg = load_network(svc_scenario[0])
     svc = Service(cfg, _settings(broker_url, prefix, http_port=0))
     stop = asyncio.Event()
     run = asyncio.create_task(svc.run(stop))

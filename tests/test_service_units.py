@@ -66,11 +66,11 @@ def test_output_keys_are_stable() -> None:
     assert output_key(fc) != output_key({**fc, "eta": "2026-01-01T01:00:00Z"})
 
 
-def test_record_json_round_trips_exactly(scenario) -> None:  # type: ignore[no-untyped-def]
+def test_record_json_round_trips_exactly(svc_scenario) -> None:  # type: ignore[no-untyped-def]
     from frontwatch.obs import decode_record
 
-    cfg = load_network(scenario[0])
-    for o in list(read_observations([scenario[1]], cfg))[:200]:
+    cfg = load_network(svc_scenario[0])
+    for o in list(read_observations([svc_scenario[1]], cfg))[:200]:
         back = decode_record(record_json(o))
         assert back.to_record() == o.to_record()
         assert (back.temp_c, back.wind_dir_deg, back.time) == (o.temp_c, o.wind_dir_deg, o.time)
@@ -101,8 +101,8 @@ class _FakeClient:
         return gen()
 
 
-async def test_full_inbox_drops_the_oldest_and_counts(scenario) -> None:  # type: ignore[no-untyped-def]
-    cfg = load_network(scenario[0])
+async def test_full_inbox_drops_the_oldest_and_counts(svc_scenario) -> None:  # type: ignore[no-untyped-def]
+    cfg = load_network(svc_scenario[0])
     st = ServiceSettings(broker=parse_broker_url("mqtt://127.0.0.1:9"), prefix="p", db_path=None, http_port=None,
                          queue_size=5)
     svc = Service(cfg, st)
@@ -115,10 +115,10 @@ def _items(msgs: list[tuple[float, str, bytes, int]]) -> list[_Item]:
     return [_Item(0, i, 1, t, p, time.time()) for i, (_, t, p, _) in enumerate(msgs)]
 
 
-def test_restart_from_journal_and_snapshot_gives_the_replay_outputs(scenario, tmp_path: Path) -> None:  # type: ignore[no-untyped-def]
+def test_restart_from_journal_and_snapshot_gives_the_replay_outputs(svc_scenario, tmp_path: Path) -> None:  # type: ignore[no-untyped-def]
     """Process part of the stream, 'crash' (no final snapshot), start again on the same store: the
     snapshot plus the journal after it rebuild the core, and nothing is stored twice."""
-    net, obs = scenario
+    net, obs = svc_scenario
     cfg = load_network(net)
     ref = [e.to_dict() for e in run_replay([obs], cfg).events]
     items = _items(plan_messages(read_observations([obs], cfg), "p"))
@@ -163,9 +163,9 @@ def test_store_outbox_marks_published(tmp_path: Path) -> None:
     assert list(s.journal_after(0)) == []  # the snapshot covers it: trimmed
 
 
-def test_service_loop_smoke_without_broker(scenario) -> None:  # type: ignore[no-untyped-def]
+def test_service_loop_smoke_without_broker(svc_scenario) -> None:  # type: ignore[no-untyped-def]
     """With no broker reachable the service keeps retrying and still stops cleanly when asked."""
-    cfg = load_network(scenario[0])
+    cfg = load_network(svc_scenario[0])
     st = ServiceSettings(broker=parse_broker_url("mqtt://127.0.0.1:9"), prefix="p", db_path=None, http_port=None,
                          backoff_min_s=0.05, backoff_max_s=0.1)
 
@@ -181,10 +181,10 @@ def test_service_loop_smoke_without_broker(scenario) -> None:  # type: ignore[no
     asyncio.run(main())
 
 
-def test_dashboard_gets_the_qc_flags_of_a_record(scenario) -> None:  # type: ignore[no-untyped-def]
+def test_dashboard_gets_the_qc_flags_of_a_record(svc_scenario) -> None:  # type: ignore[no-untyped-def]
     import json
 
-    cfg = load_network(scenario[0])
+    cfg = load_network(svc_scenario[0])
     st = ServiceSettings(broker=parse_broker_url("mqtt://127.0.0.1:9"), prefix="p", db_path=None, http_port=None)
     svc = Service(cfg, st)
     good = {"station": "GR01", "wind_dir_deg": 270, "wind_speed_ms": 3.0, "temp_c": 25.0, "dewpoint_c": 14.0}
@@ -195,10 +195,10 @@ def test_dashboard_gets_the_qc_flags_of_a_record(scenario) -> None:  # type: ign
     assert svc.hub.qc_trouble.get("GR01", 0) == sum(svc.engine.stats.qc.values())
 
 
-def test_a_core_failure_on_one_record_is_counted_and_the_stream_goes_on(scenario, monkeypatch) -> None:  # type: ignore[no-untyped-def]
+def test_a_core_failure_on_one_record_is_counted_and_the_stream_goes_on(svc_scenario, monkeypatch) -> None:  # type: ignore[no-untyped-def]
     import json
 
-    cfg = load_network(scenario[0])
+    cfg = load_network(svc_scenario[0])
     st = ServiceSettings(broker=parse_broker_url("mqtt://127.0.0.1:9"), prefix="p", db_path=None, http_port=None)
     svc = Service(cfg, st)
     real = svc.engine.feed

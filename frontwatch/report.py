@@ -267,14 +267,24 @@ def tune_html(res: TuneResult, store: ObsStore | None, tz: tzinfo | None, title:
              '<table><tr><th class="l">settings</th><th>train objective</th><th>train CSI</th><th>held-out objective</th>'
              "<th>held-out POD</th><th>held-out FAR</th><th>held-out CSI</th><th>held-out bias</th>"
              "<th>held-out median delay (min)</th></tr>"]
-    for name, t in (("chosen", b), ("current", c)):
+    rows = [("chosen", b), ("current", c)]
+    if res.top is not None and res.top is not b:
+        rows.append(("top train objective", res.top))
+    for name, t in rows:
         tr, te = t.train, t.test
         assert tr is not None and te is not None
         parts.append(f'<tr><td class="l">{name} (#{t.index})</td><td>{fmt(t.train_value)}</td>'
                      f"<td>{fmt(tr.overall.csi)}</td><td>{fmt(t.test_value)}</td><td>{fmt(te.overall.pod)}</td>"
                      f"<td>{fmt(te.overall.far)}</td><td>{fmt(te.overall.csi)}</td><td>{fmt(te.overall.bias)}</td>"
                      f"<td>{fmt_min(te.delay.median)}</td></tr>")
-    parts.append("</table><h2>Chosen settings</h2>")
+    parts.append("</table>")
+    parts.append(f'<p class="note">One-standard-error rule: settings other than the current ones are chosen only '
+                 f"when their train objective beats the current settings' by more than {res.margin:.3f} "
+                 + ("(the stated min_gain)." if sp.search.min_gain is not None else
+                    "(one standard error of the current train score).")
+                 + (" The top train objective did not, so the current settings are kept."
+                    if res.top is not None and res.top is not b else "") + "</p>")
+    parts.append("<h2>Chosen settings</h2>")
     parts.append('<table><tr><th class="l">setting</th><th>current</th><th>chosen</th><th class="l"></th></tr>')
     for name in DetectorSettings.model_fields:
         cv, bv = getattr(c.settings, name), getattr(b.settings, name)

@@ -274,16 +274,26 @@ class Objective:
     delay_penalty_per_min: float = 0.01
     delay_free_min: float = 4.0
 
-    def value(self, rep: ScoreReport) -> float:
-        c = rep.overall
+    def _score(self, c: Contingency) -> tuple[float | None, int]:
+        """The metric and the count it is a proportion of."""
         if self.metric == "csi":
-            s = c.csi
-        elif self.metric == "pod":
-            s = c.pod
-        elif self.metric == "one_minus_far":
-            s = None if c.far is None else 1.0 - c.far
-        else:
-            raise ValueError(f"unknown objective metric {self.metric!r}")
+            return c.csi, c.a + c.b + c.c
+        if self.metric == "pod":
+            return c.pod, c.a + c.c
+        if self.metric == "one_minus_far":
+            return (None if c.far is None else 1.0 - c.far), c.a + c.b
+        raise ValueError(f"unknown objective metric {self.metric!r}")
+
+    def standard_error(self, rep: ScoreReport) -> float:
+        """Binomial standard error sqrt(p (1 - p) / n) of the metric, taken as a proportion of n
+        (an approximation: the matching makes the trials not quite independent)."""
+        p, n = self._score(rep.overall)
+        if p is None or n == 0:
+            return 0.0
+        return math.sqrt(max(p * (1.0 - p), 0.0) / n)
+
+    def value(self, rep: ScoreReport) -> float:
+        s, _ = self._score(rep.overall)
         base = s if s is not None else 0.0
         med = rep.delay.median
         if med is None:

@@ -346,6 +346,9 @@ class SearchSettings(BaseModel):
     workers: int = Field(0, ge=0)  # 0: all cores
     eta: int = Field(3, ge=2, le=10)  # halving: keep 1/eta of the settings at each rung
     min_rung_labels: int = Field(20, ge=1)  # halving: target-kind labels the smallest rung should hold
+    # Train gain over the current settings needed to change them; None: one standard error of the
+    # current settings' train score (the one-standard-error rule of Breiman et al. 1984, CART).
+    min_gain: float | None = Field(None, ge=0)
 
 
 class ObjectiveSettings(BaseModel):
@@ -502,6 +505,8 @@ class TuneResult:
     wall_s: float
     records: int
     workers: int
+    top: Trial | None = None  # the best train objective, before the one-standard-error rule
+    margin: float = 0.0  # the train gain `top` needed over the current settings to be chosen
 
 
 # Worker process state: the store (memory-mapped) and the config, set once by the initializer.
@@ -689,9 +694,15 @@ def tune(store: ObsStore, config: NetworkConfig, labels: Sequence[Label], space:
             tmp.cleanup()
 
     finalists = [t for t in trials if t.rung == n_rungs - 1 and t.test is not None]
-    best = sorted(finalists, key=lambda t: (-t.train_value, len(t.changes), t.index))[0]
-    return TuneResult(space, trials, best, trials[0], train_days, test_days, list(labels),
-                      _time.perf_counter() - t_start, len(store), nworkers)
+    top = sorted(finalists, key=lambda t: (-t.train_value, len(t.changes), t.index))[0]
+    # One-standard-error rule: change the settings only for a train gain larger than the noise of
+    # the current settings' train score (or the stated min_gain).
+    cur = trials[0]
+    assert cur.train is not None
+    margin = space.search.min_gain if space.search.min_gain is not None else obj.standard_error(cur.train)
+    best = top if top.train_value - cur.train_value > margin else cur
+    return TuneResult(space, trials, best, cur, train_days, test_days, list(labels),
+                      _time.perf_counter() - t_start, len(store), nworkers, top, margin)
 
 
 # --------------------------------------------------------------------------------------------
@@ -725,11 +736,15 @@ def result_header(res: TuneResult) -> str:
         return "n/a" if x is None else f"{x:.3f}"
 
     b, c = res.best, res.current
+    kept = ""
+    if b is c and res.top is not None and res.top is not c:
+        kept = (f"\nkept the current settings: the top train objective (#{res.top.index}, "
+                f"{res.top.train_value:.3f}) beat theirs ({c.train_value:.3f}) by less than {res.margin:.3f}")
     return (f"frontwatch tune: {res.space.search.method} search, {len(res.trials)} settings, objective "
             f"{res.space.objective.metric} of {res.space.objective.target}\n"
             f"chosen on {len(res.train_days)} train days; held-out {len(res.test_days)} days\n"
             f"held-out CSI {f(b.test.overall.csi if b.test else None)} "
-            f"(current settings {f(c.test.overall.csi if c.test else None)})")
+            f"(current settings {f(c.test.overall.csi if c.test else None)})" + kept)
 
 
 def cached_store(paths: Sequence[str | Path], config: NetworkConfig, cache_dir: str | Path | None,

@@ -67,3 +67,12 @@ def test_objective_penalises_slow_detection() -> None:
     assert obj.value(fast) == pytest.approx(1.0)
     # median delay 14 min: 10 min beyond the free 4, at 0.01 per minute
     assert obj.value(slow) == pytest.approx(0.9)
+
+
+def test_standard_error_of_csi() -> None:
+    # Binomial standard error sqrt(p(1-p)/n) of CSI = 40/70 (the Wilks table above): 0.0591 by hand.
+    labels = [Label("ST1", "breeze_front", T0 + i * 86400.0) for i in range(60)]
+    events = [_ev("ST1", T0 + i * 86400.0) for i in range(40)] + [_ev("ST1", T0 + (100 + i) * 86400.0) for i in range(10)]
+    rep = score(events, labels)
+    assert Objective().standard_error(rep) == pytest.approx(((40 / 70) * (30 / 70) / 70) ** 0.5)
+    assert Objective().standard_error(rep) == pytest.approx(0.0591, abs=1e-4)

@@ -30,6 +30,7 @@ from frontwatch.tune import (
     detector_toml,
     local_day_numbers,
     parse_space,
+    result_header,
     run_detector,
     split_days,
     tune,
@@ -191,6 +192,12 @@ def test_tune_finds_the_day_window_and_writes_toml(scenario: tuple[Path, Path, P
     text = detector_toml(res.best.settings, sp.params, "a header")
     back = DetectorSettings.model_validate(tomllib.loads(text)["detector"])
     assert back == res.best.settings
+    if method == "grid":
+        # one-standard-error rule with a stated margin no setting can beat: the current ones are kept
+        sp_keep = sp.model_copy(update={"search": sp.search.model_copy(update={"min_gain": 2.0})})
+        kept = tune(store, cfg, read_labels(lab), sp_keep, workers=1)
+        assert kept.best is kept.current and kept.top is not None and kept.top is not kept.current
+        assert "kept the current settings" in result_header(kept)
     if method == "halving":
         assert any(t.test is None for t in res.trials)  # some settings stopped at an early rung
         # too few labels for a small rung (6 train labels < 20): one rung, every setting on all days

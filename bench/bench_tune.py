@@ -96,13 +96,17 @@ def main(argv: list[str] | None = None) -> int:
           f"{load[0]:.1f} {load[1]:.1f} {load[2]:.1f} (the machine is shared: on {args.workers} idle cores the "
           f"search would take about {(cpu_workers + cpu_main) / args.workers:.0f} s)")
     print(f"train days {len(res.train_days)}, held-out days {len(res.test_days)} (whole local days)")
-    for name, t in (("chosen", b), ("current/default", c)):
+    rows = [("chosen", b), ("current/default", c)]
+    if res.top is not None and res.top is not b:
+        rows.append(("top train (kept out by the 1-SE rule)", res.top))
+    for name, t in rows:
         assert t.train is not None and t.test is not None
         med = t.test.delay.median
-        print(f"{name:16s} #{t.index:<3d} train CSI {t.train.overall.csi or 0:.3f}  held-out CSI "
+        print(f"{name:16s} #{t.index:<3d} train objective {t.train_value:.3f}, train CSI {t.train.overall.csi or 0:.3f}  held-out CSI "
               f"{t.test.overall.csi or 0:.3f} (a={t.test.overall.a} b={t.test.overall.b} c={t.test.overall.c})  "
               f"held-out median delay {'n/a' if med is None else f'{med / 60:.1f} min'}")
-    print(f"chosen changes: {b.changes or 'none (the current settings won)'}")
+    print(f"chosen changes: {b.changes or 'none (the current settings kept)'}; margin needed over the current "
+          f"train objective: {res.margin:.4f}")
     ok_time = wall <= 600.0
     ok_skill = (b.test.overall.csi or 0.0) >= (c.test.overall.csi or 0.0)
     print(f"acceptance: within 10 min {'yes' if ok_time else 'NO'}; "

@@ -16,7 +16,6 @@ import sys
 from pathlib import Path
 from typing import Any
 
-import jsonschema
 import pytest
 
 from frontwatch.alerts.schema import SCHEMAS
@@ -151,6 +150,7 @@ def test_eta_errors_reported(scenario: Any, oracle_out: list[dict[str, Any]]) ->
 
 @pytest.mark.slow  # two passes of the whole core over 3 days of 12 stations: about 10 s
 def test_whole_core_outputs_are_valid_deterministic_and_resumable(scenario: Any) -> None:
+    jsonschema = pytest.importorskip("jsonschema", reason="jsonschema (test extra) is not installed")
     cfg = parse_network(scenario.network, "sim")
     obs = list(observations(decode_frame(scenario.observations, cfg, "sim")))
     e1 = Engine(cfg)

@@ -111,6 +111,9 @@ class DetectorSettings(_Strict):
     breeze_min_evidence: float = Field(10.0, ge=0)
     # Minutes within which T, Td and the onshore wind must each change for one front (common practice)
     coherence_min: float = Field(6.0, ge=1, le=30)
+    # An inland breeze front needs another station's within this many hours (0 = off); see
+    # frontwatch/detect/corroborate.py
+    corroborate_hours: float = Field(4.0, ge=0, le=24)
     day_start_h: float = Field(8.0, ge=0, le=24)  # local hours when a breeze front may start
     day_end_h: float = Field(20.0, ge=0, le=24)
     gust_front_pressure_jump_hpa: float = Field(1.2, gt=0)  # Engerer et al. 2008: 2-4.5 hPa jumps

@@ -11,12 +11,14 @@ from collections import Counter
 from typing import Any, Protocol
 
 from .config import NetworkConfig
+from .detect.corroborate import Corroborator
 from .detect.station import StationDetector
 from .events import PassageEvent
 from .obs import Observation
 from .qc import StationQC
 
 SNAPSHOT_VERSION = 1
+MAX_UNKNOWN = 256  # distinct unknown station ids counted by name; the rest under '(others)'
 
 
 class Output(Protocol):
@@ -66,6 +68,7 @@ class Engine:
             self.qc[st.id] = StationQC(config.qc, st.id)
         self.watch = _make_watch(config)
         self._pairs = {k: (self.qc[k], self.detectors[k]) for k in self.detectors}  # one lookup per record
+        self.corroborate = Corroborator(config)
 
     def feed(self, obs: Observation) -> list[Output]:
         """Take one observation (any station, event-time order per station) and return its outputs."""
@@ -73,7 +76,10 @@ class Engine:
         stats.records += 1
         pair = self._pairs.get(obs.station)
         if pair is None:
-            stats.unknown_stations[obs.station] += 1
+            # bounded: a flood of junk ids must not grow memory or snapshots
+            u = stats.unknown_stations
+            key = obs.station if obs.station in u or len(u) < MAX_UNKNOWN else "(others)"
+            u[key] += 1
             return []
         clean, flags = pair[0].check(obs)
         if flags:
@@ -87,6 +93,7 @@ class Engine:
         watch = self.watch
         if ev is None:
             return [] if watch is None else watch.observe(clean, None)
+        ev = self.corroborate.check(ev)
         stats.events[ev.kind] += 1
         out: list[Output] = [ev]
         if watch is not None:
@@ -109,6 +116,7 @@ class Engine:
             "detectors": {k: d.snapshot() for k, d in self.detectors.items()},
             "qc": {k: q.snapshot() for k, q in self.qc.items()},
             "watch": self.watch.snapshot() if self.watch is not None else None,
+            "corroborate": self.corroborate.snapshot(),
         }
 
     @classmethod
@@ -126,6 +134,7 @@ class Engine:
             if k in eng.qc:
                 eng.qc[k].restore(q)
         eng._pairs = {k: (eng.qc[k], eng.detectors[k]) for k in eng.detectors}
+        eng.corroborate.restore(snap["corroborate"])
         if eng.watch is not None and snap.get("watch") is not None:
             eng.watch.restore(snap["watch"])
         return eng

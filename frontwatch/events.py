@@ -33,6 +33,7 @@ class PassageEvent:
     speed_after_ms: float | None = None
     gust_after_ms: float | None = None
     temp_after_c: float | None = None
+    note: str | None = None  # why the kind is what it is, when that is not obvious
 
     def __post_init__(self) -> None:
         if self.kind not in KINDS:
@@ -62,6 +63,7 @@ class PassageEvent:
             "speed_after_ms": _r(self.speed_after_ms),
             "gust_after_ms": _r(self.gust_after_ms),
             "temp_after_c": _r(self.temp_after_c),
+            **({"note": self.note} if self.note else {}),
         }
 
     @classmethod
@@ -73,5 +75,5 @@ class PassageEvent:
             speed_change_ms=d.get("speed_change_ms"), temp_change_c=d.get("temp_change_c"),
             dewpoint_change_c=d.get("dewpoint_change_c"), pressure_change_hpa=d.get("pressure_change_hpa"),
             speed_after_ms=d.get("speed_after_ms"), gust_after_ms=d.get("gust_after_ms"),
-            temp_after_c=d.get("temp_after_c"),
+            temp_after_c=d.get("temp_after_c"), note=d.get("note"),
         )

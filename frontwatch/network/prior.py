@@ -20,7 +20,8 @@ from .fit import Prior
 DEPTH_M = 500.0  # depth of the cool marine layer (from memory; not observed)
 FROUDE_K = 0.7  # k in U = k sqrt(g'h): 0.7 to 1 in the field (from memory, DOMAIN.md)
 MIN_DROP_K = 0.5  # a passage with less visible cooling still moves: floor on dtheta
-MIN_SPEED_MS = 0.7
+MIN_SPEED_MS = 1.0  # a front still coming moves about this fast or more (lake-breeze fronts averaged
+# 1.4 m/s, Keeler & Kristovich 2012); a strong opposing wind can push the formula below it
 MAX_SPEED_MS = 8.0
 SPEED_REL_SD = 0.7  # wide: h and k are guesses
 # A young front runs at about half the speed it reaches later in the day ("from under 3 to over

@@ -6,6 +6,7 @@ Units are converted once, here at the edge; everything downstream sees SI-ish ca
 
 from __future__ import annotations
 
+import functools
 import json
 import math
 from collections.abc import Callable, Iterable, Mapping
@@ -32,10 +33,21 @@ UNIT_FIELDS: dict[str, dict[str, Callable[[float], float]]] = {
 }
 PLAIN_FIELDS = ("wind_dir_deg", "rh_pct", "rain_mm")
 CANONICAL = ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms", "temp_c", "dewpoint_c", "pressure_hpa", "rain_mm")
+CANONICAL_IDENTITY = frozenset(CANONICAL) | {"rh_pct"}
 
 
+def _identity(x: float) -> float:
+    return x
+
+
+@functools.lru_cache(maxsize=512)
 def split_unit(name: str) -> tuple[str, Callable[[float], float]] | None:
-    """'wind_speed_kt' -> ('wind_speed_ms', knots->m/s); canonical names map to themselves."""
+    """'wind_speed_kt' -> ('wind_speed_ms', knots->m/s); canonical names map to themselves.
+
+    Cached: a feed uses a handful of names, and this runs for every field of every record.
+    """
+    if name in CANONICAL_IDENTITY:
+        return name, _identity
     if name in PLAIN_FIELDS:
         return name, lambda x: x
     base, _, suffix = name.rpartition("_")
@@ -130,8 +142,8 @@ def decode_record(
         if su is None:
             continue
         canon, conv = su
-        x = _number(raw, key)
-        if x == x:
+        x = raw if type(raw) is float and raw - raw == 0.0 else _number(raw, key)  # fast path: finite float
+        if x == x and conv is not _identity:
             x = conv(x) if -1e300 < x < 1e300 else _number(conv(x), key)  # 1e308 inHg overflows to inf
         if canon == "rh_pct":
             rh = x

@@ -116,7 +116,7 @@ def test_no_alert_for_a_site_never_reached(scenario: Any, oracle_out: list[dict[
 
 @pytest.mark.xfail(strict=True, reason=(
     "known shortfall on this sparse 12-station network: only 2 fitted forecasts come before a "
-    "downstream site's arrival, median error 8.6 min; prior-based ones (1-2 stations) 40 min"))
+    "downstream site's arrival, median error 5.2 min; prior-based ones (1-2 stations) 36 min"))
 def test_eta_errors_reported(scenario: Any, oracle_out: list[dict[str, Any]]) -> None:
     """The ETA figures of issue 4 on this scenario (sites >= 20 min downstream of the first station):
     the first forecast comes >= 15 min ahead; the error of the forecasts from fitted fronts (>= 3

@@ -283,12 +283,15 @@ def apply_qc(store: ObsStore, config: NetworkConfig) -> ObsStore:
 
 
 def run_detector(store: ObsStore, config: NetworkConfig, days: Iterable[int] | None = None,
-                 stations: Sequence[int] | None = None) -> list[PassageEvent]:
+                 stations: Sequence[int] | None = None, finish: bool = True) -> list[PassageEvent]:
     """The Engine over the store's records (only the detector matters here: sites are dropped).
 
     On a store that already went through apply_qc, the Engine's station detectors are fed the QC'd
-    records directly, which is what Engine.feed does after its QC step; the tests check that both
-    paths give replay's events.
+    records directly, which is what Engine.feed does after its QC step, and the network steps that
+    Engine.feed applies to each event afterwards (corroboration) run in finish_events. With
+    `stations` (a group of station indices) and finish=False the raw station events of that group
+    are returned, to be put together with the other groups' and finished once. The tests check
+    that every path gives replay's events.
     """
     from .engine import Engine
 
@@ -300,13 +303,43 @@ def run_detector(store: ObsStore, config: NetworkConfig, days: Iterable[int] | N
             ev = dets[o.station].update(o)
             if ev is not None:
                 out.append(ev)
-        return out
+        return finish_events(store, config, out) if finish else out
+    if stations is not None:
+        raise ValueError("station groups need a store that went through apply_qc")
     feed = eng.feed
-    for o in store.iter_observations(days, stations=stations):
+    for o in store.iter_observations(days):
         for x in feed(o):
             if isinstance(x, PassageEvent):
                 out.append(x)
     return out
+
+
+def finish_events(store: ObsStore, config: NetworkConfig, raw: list[PassageEvent]) -> list[PassageEvent]:
+    """Station detectors' events in the order the stream emitted them, through the Engine's
+    per-event network step (Engine.corroborate.check, when the Engine has one).
+
+    An event is emitted on the record of its station at `detected_at`; that record's position in
+    the store is the stream order (records at one time keep the files' order)."""
+    from .engine import Engine
+
+    if not raw:
+        return []
+    sidx = {name: i for i, name in enumerate(store.stations)}
+    times = np.asarray(store.time)
+    stidx = np.asarray(store.station_idx)
+
+    def position(e: PassageEvent) -> int:
+        lo = int(np.searchsorted(times, e.detected_at, side="left"))
+        hi = int(np.searchsorted(times, e.detected_at, side="right"))
+        hit = np.flatnonzero(stidx[lo:hi] == sidx.get(e.station, -1))
+        return lo + int(hit[0]) if hit.size else hi
+
+    ordered = sorted(raw, key=lambda e: (e.detected_at, position(e)))
+    eng = Engine(config.model_copy(update={"sites": []}))
+    step = getattr(eng, "corroborate", None)
+    if step is None:
+        return ordered
+    return [step.check(e) for e in ordered]
 
 
 # --------------------------------------------------------------------------------------------
@@ -521,7 +554,7 @@ def _worker_init(store_dir: str, config_json: str) -> None:
 def _worker_run(changes: dict[str, Any], days: list[int] | None,
                 stations: list[int] | None = None) -> list[PassageEvent]:
     cfg: NetworkConfig = _W["config"].with_detector(**changes)
-    return run_detector(_W["store"], cfg, days, stations)
+    return run_detector(_W["store"], cfg, days, stations, finish=False)
 
 
 def _label_predicate(target: str) -> Callable[[Label], bool]:
@@ -560,7 +593,8 @@ class _Runner:
             return res
         # Each trial as one job per group of stations, so the workers stay busy to the end of a rung
         # even when the trials do not divide evenly among them.
-        parts = self.store.station_parts(self.workers) if self.store.qc_done else [None]
+        grouped = self.store.qc_done
+        parts: list[list[int] | None] = list(self.store.station_parts(self.workers)) if grouped else [None]
         futs: list[list[Future[list[PassageEvent]]]] = []
         for ch, days, work in jobs:
             row = [self.pool.submit(_worker_run, ch, days, part) for part in parts]
@@ -568,10 +602,9 @@ class _Runner:
                 f.add_done_callback(self._ticker(work / len(parts)))
             futs.append(row)
         out = []
-        for row in futs:
+        for (ch, _, _), row in zip(jobs, futs, strict=True):
             evs = [e for f in row for e in f.result()]
-            evs.sort(key=lambda e: (e.detected_at, e.station))
-            out.append(evs)
+            out.append(finish_events(self.store, self.config.with_detector(**ch), evs) if grouped else evs)
         return out
 
     def _ticker(self, work: float) -> Callable[[Future[list[PassageEvent]]], None]:

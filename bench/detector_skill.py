@@ -46,6 +46,7 @@ def run_one(name: str, seed: int, days: int) -> dict[str, float]:
         "delay": (rep.delay.median or 0.0) / 60, "onset": (rep.onset_error.mean_abs or 0.0) / 60,
         "onset_bias": (rep.onset_error.mean or 0.0) / 60,
         "lookalike_bf": bad, "labels": rep.overall.a + rep.overall.c, "records": len(d),
+        "a": rep.overall.a, "b": rep.overall.b, "c": rep.overall.c,
     }
 
 
@@ -67,6 +68,10 @@ def main() -> None:
             print(f"{name:14s} {seed:5d} {r['csi']:6.3f} {r['pod']:6.3f} {r['far']:6.3f} {r['delay']:6.1f} "
                   f"{r['onset']:7.1f} {r['onset_bias']:+6.1f} {r['lookalike_bf']:15d} {r['labels']:6d}"
                   f"   ({time.time() - t0:.1f}s)")
+        ha, fb, mc = (sum(r[k] for r in rows) for k in ("a", "b", "c"))
+        print(f"{name:14s} {'pool':>5s} {ha / max(1, ha + fb + mc):6.3f} {ha / max(1, ha + mc):6.3f} "
+              f"{fb / max(1, ha + fb):6.3f}"
+              f"   (hits {ha}, false alarms {fb}, misses {mc})")
         print(f"{name:14s} {'med':>5s} {statistics.median(r['csi'] for r in rows):6.3f} "
               f"{statistics.median(r['pod'] for r in rows):6.3f} {statistics.median(r['far'] for r in rows):6.3f} "
               f"{statistics.median(r['delay'] for r in rows):6.1f} {statistics.median(r['onset'] for r in rows):7.1f}")

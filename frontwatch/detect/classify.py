@@ -159,7 +159,11 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         if coherent and len(ts) == 2:
             coherent = abs(ts[0] - ts[1]) <= s.coherence_min
     dry = rain < 0.2  # rain at the change means convection, not a breeze front (DOMAIN.md section 3)
-    wind_ok = came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))
+    # Where the large-scale wind already blew from the water (a bay's far side), the front shows in
+    # the air alone: then a strong, simultaneous cooling and moistening under an onshore wind will do.
+    marine_air_only = onshore_after and settled and sig_t and sig_d and marine >= 2.0 * s.breeze_min_marine_index_c
+    wind_ok = (came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))) \
+        or marine_air_only
     failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
                                     ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence), ("dry", dry)) if not ok]
     if not failed and convective and can_wait:

@@ -29,7 +29,7 @@ RAD = math.pi / 180.0
 # Row layout in the ring: time, T, Td, onshore, alongshore, p, u, v, gust, rain
 _T, _TC, _TD, _ON, _AL, _P, _U, _V, _G, _R = range(10)
 WEIGHTS = np.array([1.0, 1.0, 1.0, 0.7, 0.5])
-RESET_GAP_S = 20 * 60.0  # after a silence this long the window restarts (no change point across it)
+RESET_GAP_S = 60 * 60.0  # after a silence this long the window restarts (a shorter gap is bridged: a front that passed during it shows as a change across it)
 
 
 def _dir_from(u: float, v: float) -> float:

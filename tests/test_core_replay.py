@@ -130,3 +130,24 @@ def test_cli_replay_writes_events_and_fails_cleanly(tmp_path):
     r = subprocess.run([sys.executable, "-m", "frontwatch.cli", "replay", str(tmp_path / "missing.csv"),
                         "--config", str(net)], capture_output=True, text=True)
     assert r.returncode != 0 and r.stderr.strip().count("\n") == 0 and "missing.csv" in r.stderr
+
+
+def test_replay_writes_alerts_and_cap_files(tmp_path):
+    """The demo scenario's site outputs offline: every JSONL line has a type, and each alert also
+    becomes one CAP 1.2 document (its required elements are checked in tests/test_alerts_cap.py)."""
+    import xml.etree.ElementTree as ET
+
+    out = tmp_path / "alerts.jsonl"
+    cap = tmp_path / "cap"
+    r = subprocess.run([sys.executable, "-m", "frontwatch.cli", "replay", str(ROOT / "replay_data/observations.csv"),
+                        "--config", str(ROOT / "replay_data/network.toml"), "--alerts", str(out), "--cap", str(cap),
+                        "--cap-status", "Exercise", "-q"], capture_output=True, text=True)
+    assert r.returncode == 0, r.stderr
+    rows = [json.loads(x) for x in out.read_text().splitlines()]
+    assert rows and all(row["type"] in ("forecast", "alert", "course") for row in rows)
+    alerts = [row for row in rows if row["type"] == "alert"]
+    files = sorted(cap.glob("*.xml"))
+    assert len(files) == len(alerts) > 0
+    ns = {"c": "urn:oasis:names:tc:emergency:cap:1.2"}
+    doc = ET.parse(files[0]).getroot()
+    assert doc.find("c:status", ns).text == "Exercise" and doc.find("c:info/c:category", ns).text == "Met"

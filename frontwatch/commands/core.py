@@ -31,6 +31,8 @@ def replay(
     config: Annotated[Path, typer.Option("--config", "-c", help="network TOML file")],
     events: Annotated[Path | None, typer.Option("--events", help="write passage events (JSONL)")] = None,
     alerts: Annotated[Path | None, typer.Option("--alerts", help="write site forecasts and alerts (JSONL)")] = None,
+    cap: Annotated[Path | None, typer.Option("--cap", help="write each alert as CAP 1.2 XML into this folder")] = None,
+    cap_status: Annotated[str, typer.Option("--cap-status", help="CAP status: Actual, Exercise, Test ...")] = "Actual",
     column_map: Annotated[list[str] | None, typer.Option("--map", help="FOREIGN=CANONICAL column mapping")] = None,
     to: Annotated[str | None, typer.Option("--to", help="publish to a broker instead: mqtt://host:port")] = None,
     speed: Annotated[float, typer.Option("--speed", help="with --to: times real time (0 = as fast as possible)")] = 0.0,
@@ -67,8 +69,11 @@ def replay(
     evs = result.events
     if events is not None:
         _write_jsonl(events, [e.to_dict() for e in evs])
+    site_outputs = [d for d in (o.to_dict() for o in result.outputs) if "type" in d]
     if alerts is not None:
-        _write_jsonl(alerts, [o.to_dict() for o in result.outputs if "type" in o.to_dict()])
+        _write_jsonl(alerts, site_outputs)
+    if cap is not None:
+        _write_cap(cap, [d for d in site_outputs if d["type"] == "alert"], cap_status)
     if not quiet:
         _summary(Console(), result, files)
 
@@ -89,6 +94,19 @@ def _write_jsonl(path: Path, rows: list[dict[str, Any]]) -> None:
                 fh.write(json.dumps(r, separators=(",", ":")) + "\n")
     except OSError as exc:
         _fail(f"{path}: cannot write: {exc.strerror or exc}")
+
+
+def _write_cap(folder: Path, alerts: list[dict[str, Any]], status: str) -> None:
+    from ..alerts.cap import to_cap_xml
+
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+        for a in alerts:
+            (folder / f"{a['id']}-{a['seq']:03d}.xml").write_text(to_cap_xml(a, status=status), encoding="utf-8")
+    except OSError as exc:
+        _fail(f"{folder}: cannot write CAP files: {exc.strerror or exc}")
+    except ValueError as exc:
+        _fail(f"--cap-status: {exc}")
 
 
 def _summary(console: Any, result: Any, files: list[Path]) -> None:

@@ -63,6 +63,8 @@ class ServiceMetrics:
         self.reconnects = Counter("frontwatch_broker_reconnects", "Connections made after the first one",
                                   registry=r)
         self.snapshots = Counter("frontwatch_snapshots", "Core snapshots written to the store", registry=r)
+        self.webhooks = Counter("frontwatch_webhook_deliveries", "Alert webhook deliveries, by outcome (sent/failed/dropped)",
+                                ["outcome"], registry=r)
         self.processing = Histogram("frontwatch_record_processing_seconds",
                                     "Core time per record (decode excluded), averaged over each message",
                                     buckets=_PROC_BUCKETS, registry=r)

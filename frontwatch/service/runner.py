@@ -25,6 +25,7 @@ from typing import Any
 import aiomqtt
 import uvicorn
 
+from ..alerts.webhook import WebhookSender
 from ..config import NetworkConfig
 from ..engine import Engine
 from ..errors import DecodeError
@@ -64,6 +65,9 @@ class _QuietServer(uvicorn.Server):
         yield
 
 
+WEBHOOK_INFLIGHT = 64  # alert deliveries in flight at once; beyond that they are dropped and counted
+
+
 class Service:
     """The live service for one network. `run(stop)` returns once `stop` is set and all is saved."""
 
@@ -101,6 +105,11 @@ class Service:
         self._qc_mirror: dict[str, int] = {}
         self._qc_total = 0
         self._core_errors = 0
+        # Alert webhooks (DESIGN 1): posted from the loop, at most WEBHOOK_INFLIGHT at once, so a
+        # slow endpoint never holds up the core; each delivery retries with backoff and is counted.
+        self.webhooks = WebhookSender()
+        self._site_hooks = {s.id: list(s.webhooks) for s in config.sites if s.webhooks}
+        self._hook_tasks: set[asyncio.Task[bool]] = set()
 
     # --- start-up: restore the core and catch up on the journal ------------------------------
     def recover(self) -> int:
@@ -380,8 +389,24 @@ class Service:
                 self.hub.emit(payload)
                 if self.on_output is not None:
                     self.on_output(payload)
+                if payload.get("type") == "alert" and payload.get("site") in self._site_hooks:
+                    self._post_webhooks(payload)
         if new:
             self._publish_wakeup.set()
+
+    def _post_webhooks(self, alert: dict[str, Any]) -> None:
+        for url in self._site_hooks[alert["site"]]:
+            if len(self._hook_tasks) >= WEBHOOK_INFLIGHT:
+                self.metrics.webhooks.labels("dropped").inc()
+                continue
+            task = asyncio.get_running_loop().create_task(self.webhooks.send(url, alert))
+            self._hook_tasks.add(task)
+            task.add_done_callback(self._webhook_done)
+
+    def _webhook_done(self, task: asyncio.Task[bool]) -> None:
+        self._hook_tasks.discard(task)
+        ok = not task.cancelled() and task.exception() is None and task.result()
+        self.metrics.webhooks.labels("sent" if ok else "failed").inc()
 
     def _core_error(self, o: Observation) -> None:
         self.metrics.refused.labels("core_error").inc()

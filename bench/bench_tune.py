@@ -47,6 +47,9 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--data", default=str(ROOT / "bench/out/bench.csv"))
     args = ap.parse_args(argv)
 
+    head = subprocess.run(["git", "-C", str(ROOT), "log", "-1", "--format=%h %cd", "--date=format:%H:%M"],
+                          capture_output=True, text=True).stdout.strip()
+    print(f"code at commit {head or 'unknown'}")
     data = Path(args.data)
     stem = data.with_suffix("")
     if not data.exists():

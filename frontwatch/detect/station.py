@@ -8,6 +8,7 @@ wind averaging are per station; the settings and local clock are shared).
 
 from __future__ import annotations
 
+import itertools
 import math
 import warnings
 from collections import deque
@@ -28,6 +29,7 @@ NAN = float("nan")
 RAD = math.pi / 180.0
 # Row layout in the ring: time, T, Td, onshore, alongshore, p, u, v, gust, rain
 _T, _TC, _TD, _ON, _AL, _P, _U, _V, _G, _R = range(10)
+_NCOL = 10
 WEIGHTS = np.array([1.0, 1.0, 1.0, 0.7, 0.5])
 RESET_GAP_S = 60 * 60.0  # after a silence this long the window restarts (a shorter gap is bridged: a front that passed during it shows as a change across it)
 
@@ -107,7 +109,8 @@ class StationDetector:
     # ------------------------------------------------------------------ scoring and deciding
     def _evaluate(self, now: float) -> PassageEvent | None:
         st = self.settings
-        arr = np.array(self.ring, dtype=float)
+        ring = self.ring
+        arr = np.fromiter(itertools.chain.from_iterable(ring), float, len(ring) * _NCOL).reshape(len(ring), _NCOL)
         t = arr[:, _T]
         x = arr[:, _TC:_P + 1]
         earliest = max(now - st.max_wait_min * 60.0, self.quiet_until)

@@ -162,10 +162,15 @@ class StationQC:
             if ws != ws:
                 wd = NAN  # a direction without a trusted speed cannot make a wind vector
                 changed = True
-            elif ws > 0.5 and self.vane.check(wd, t) == "stuck":
-                flags.append("wind_dir_stuck")
-                wd = NAN
-                changed = True
+            elif ws > 0.5:
+                vane = self.vane  # only persistence applies to a vane (range is checked at decode)
+                if wd != vane.run_value:
+                    vane.run_value = wd
+                    vane.run_start = t
+                elif t - vane.run_start > vane.persist_s:
+                    flags.append("wind_dir_stuck")
+                    wd = NAN
+                    changed = True
         gust = obs.wind_gust_ms
         if gust == gust and (gust < 0.0 or gust > self.settings.speed_max_ms * 1.5):
             flags.append("gust_range")

@@ -283,7 +283,8 @@ def apply_qc(store: ObsStore, config: NetworkConfig) -> ObsStore:
 
 
 def run_detector(store: ObsStore, config: NetworkConfig, days: Iterable[int] | None = None,
-                 stations: Sequence[int] | None = None, finish: bool = True) -> list[PassageEvent]:
+                 stations: Sequence[int] | None = None, finish: bool = True,
+                 near_misses: list[tuple[str, float, float, str]] | None = None) -> list[PassageEvent]:
     """The Engine over the store's records (only the detector matters here: sites are dropped).
 
     On a store that already went through apply_qc, the Engine's station detectors are fed the QC'd
@@ -296,6 +297,9 @@ def run_detector(store: ObsStore, config: NetworkConfig, days: Iterable[int] | N
     from .engine import Engine
 
     eng = Engine(config.model_copy(update={"sites": []}))
+    if near_misses is not None:
+        for det in eng.detectors.values():
+            det.near_misses = near_misses  # one list for all: the label command's candidates
     out: list[PassageEvent] = []
     if store.qc_done:
         dets = eng.detectors

@@ -146,26 +146,43 @@ def register(app: typer.Typer) -> None:
         bad_kinds = sorted(set(kinds) - set(KINDS))
         if bad_kinds:
             raise _fail("label", f"unknown kind(s) {', '.join(bad_kinds)} (one of {', '.join(KINDS)})")
-        events = run_detector(apply_qc(store, cfg), cfg)  # the plots below show the raw records
+        near: list[tuple[str, float, float, str]] = []
+        events = run_detector(apply_qc(store, cfg), cfg, near_misses=near)  # the plots show the raw records
         if kinds:
             events = [e for e in events if e.kind in kinds]
         cands = [Label(e.station, e.kind, e.onset,
                        f"event {e.id}, confidence {e.confidence:.2f}; set status to confirmed or rejected "
                        "(and fix kind/time if needed)", "unreviewed") for e in events]
+        # Near-misses: breeze-front candidates that failed one condition, one per station and hour,
+        # away from any event (the analyst decides whether the detector was too strict there).
+        taken = [(e.station, e.onset) for e in events]
+        misses: list[tuple[str, float, float, str]] = []
+        if not kinds or "breeze_front" in kinds:
+            for st, onset, decided, note in sorted(near, key=lambda x: (x[1], x[0])):
+                if any(s2 == st and abs(t2 - onset) < 3600.0 for s2, t2 in taken):
+                    continue
+                taken.append((st, onset))
+                misses.append((st, onset, decided, note))
+                cands.append(Label(st, "breeze_front", onset, f"near-miss: {note[len('breeze front? '):]}; "
+                                   "set status to confirmed if it was a passage, else rejected", "unreviewed"))
         write_labels(out, cands)
         if plots is not None:
             import matplotlib.pyplot as plt
 
+            from ..timeutil import compact_z
+
             plots.mkdir(parents=True, exist_ok=True)
-            for e in events:
-                fig = panel_figure(store, e.station, e.onset, cfg.tz,
-                                   [(e.onset, f"{e.kind} onset", "#c0392b"), (e.detected_at, "detected", "#e67e22")])
+            items = [(e.id, e.station, e.onset, e.detected_at, f"{e.kind} onset", "detected") for e in events] + \
+                [(f"{st}-near_miss-{compact_z(on)}", st, on, dec, "near-miss onset", "given up")
+                 for st, on, dec, _ in misses]
+            for pid, st, on, dec, l1, l2 in items:
+                fig = panel_figure(store, st, on, cfg.tz, [(on, l1, "#c0392b"), (dec, l2, "#e67e22")])
                 if fig is not None:
-                    fig.savefig(plots / f"{e.id}.png", dpi=80)
+                    fig.savefig(plots / f"{pid}.png", dpi=80)
                     plt.close(fig)
-        typer.echo(f"{len(cands)} candidates from {len(store):,} records ({bad} bad records skipped) -> {out}"
-                   + (f"; plots in {plots}/<event id>.png" if plots else ""))
-        typer.echo("candidates are the detector's events only: the detector exposes no near-miss hook yet")
+        typer.echo(f"{len(cands)} candidates ({len(events)} events, {len(misses)} near-misses) from "
+                   f"{len(store):,} records ({bad} bad records skipped) -> {out}"
+                   + (f"; plots in {plots}/<id>.png" if plots else ""))
 
     @app.command("tune")
     def tune_cmd(

@@ -13,7 +13,7 @@ from __future__ import annotations
 FAST = 0.5  # ~2-minute memory
 SLOW = 0.06  # ~16-minute memory
 WANDER = 0.02  # ~50-minute memory of the deviation size
-K2 = 9.0  # open when the squared deviations, in units of their usual wander, sum past 3^2
+K2 = 12.0  # open when the squared deviations, in units of their usual wander, sum past about 3.5^2
 # Floors below which a change is never interesting (T and Td in degC, wind vector in m/s).
 FLOOR_T = 0.25
 FLOOR_W = 1.0

@@ -63,6 +63,9 @@ class StationDetector:
         self.quiet_until = -1e18
         self.last_onset: dict[str, float] = {}  # kind -> onset of the last event of that kind
         self.last_evidence: dict[str, float] = {}  # kind -> its evidence (a much stronger one may follow)
+        # Analysts' hook (frontwatch label): when a list, breeze-front candidates that failed exactly
+        # one condition are appended as (station, onset, decided_at, note). Not part of the state.
+        self.near_misses: list[tuple[str, float, float, str]] | None = None
         if station is not None:
             o = station.onshore_from_deg * RAD
             self._sin_o, self._cos_o = math.sin(o), math.cos(o)
@@ -132,6 +135,9 @@ class StationDetector:
         dec = classify(sig, st, self.halfwidth, can_wait, self.averaging)
         if dec.kind is None:
             self.pending = bool(dec.wait)
+            if self.near_misses is not None and not dec.wait and dec.note.startswith("breeze front? not ") \
+                    and "," not in dec.note:
+                self.near_misses.append((self.sid, float(t_o), float(now), dec.note))
             return None
         self.pending = False
         # A wind shift is the weakest call: it only briefly blocks a stronger kind that may follow

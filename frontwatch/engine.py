@@ -13,7 +13,6 @@ from typing import Any, Protocol
 from .config import NetworkConfig
 from .detect.corroborate import Corroborator
 from .detect.station import StationDetector
-from .events import PassageEvent
 from .obs import Observation
 from .qc import StationQC
 
@@ -105,9 +104,6 @@ class Engine:
         for o in observations:
             out.extend(self.feed(o))
         return out
-
-    def events_only(self, outputs: list[Output]) -> list[PassageEvent]:
-        return [o for o in outputs if isinstance(o, PassageEvent)]
 
     def snapshot(self) -> dict[str, Any]:
         return {

@@ -18,6 +18,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from .calc.moisture import BOLTON_A, BOLTON_B, BOLTON_C  # the same Bolton (1980) formula, vectorised
 from .config import NetworkConfig
 from .engine import Engine, Output
 from .errors import InputFileError
@@ -25,7 +26,6 @@ from .events import PassageEvent
 from .obs import Observation, split_unit
 
 _OFFSET_RE = r"(?:[Zz]|[+-]\d\d:?\d\d)\s*$"
-_BOLTON_A, _BOLTON_B, _BOLTON_C = 6.112, 17.67, 243.5  # Bolton (1980); same as calc.moisture
 
 
 @dataclass(frozen=True, slots=True)
@@ -164,9 +164,9 @@ def decode_frame(df: pd.DataFrame, config: NetworkConfig, src: str, first_line: 
         if tc is not None:
             with np.errstate(all="ignore"):
                 ok = (rh > 0) & (rh <= 100.5)
-                e = np.minimum(rh, 100.0) / 100.0 * _BOLTON_A * np.exp(_BOLTON_B * tc / (tc + _BOLTON_C))
-                g = np.log(e / _BOLTON_A)
-                td = np.where(ok, _BOLTON_C * g / (_BOLTON_B - g), np.nan)
+                e = np.minimum(rh, 100.0) / 100.0 * BOLTON_A * np.exp(BOLTON_B * tc / (tc + BOLTON_C))
+                g = np.log(e / BOLTON_A)
+                td = np.where(ok, BOLTON_C * g / (BOLTON_B - g), np.nan)
             cur = cols.get("dewpoint_c")
             cols["dewpoint_c"] = td if cur is None else np.where(np.isnan(cur), td, cur)
     keep = ~bad_mask

@@ -272,11 +272,6 @@ def _mean2(rows: list[tuple[float, ...]], lo: int, hi: int, i: int, j: int) -> t
     return (si / k, sj / k) if k else (NAN, NAN)
 
 
-def _nanmean(a: np.ndarray) -> float:
-    ok = np.isfinite(a)
-    return float(a[ok].mean()) if ok.any() else NAN
-
-
 def _nz0(x: float) -> float:
     return 0.0 if x != x else x
 

@@ -58,10 +58,13 @@ def run(
     http_host: Annotated[str, typer.Option("--http-host", help="address of the web page and /metrics")] = "127.0.0.1",
     http_port: Annotated[int, typer.Option("--http-port", help="port of the web page and /metrics (0 = any, -1 = none)")] = 8750,
     token: Annotated[str | None, typer.Option("--token", envvar="FRONTWATCH_TOKEN", help="require this token on the web page")] = None,
+    shoreline: Annotated[Path | None, typer.Option("--shoreline", help="shoreline outline to draw on the page (see docs/dashboard.md)")] = None,
+    stale_after: Annotated[float, typer.Option("--stale-after", help="seconds of silence before a station shows as stale")] = 600.0,
     verbose: Annotated[bool, typer.Option("--verbose", "-v")] = False,
 ) -> None:
     """Run the live service: observations in over MQTT, events, forecasts and alerts out."""
     from ..config import load_network
+    from ..service.hub import DashboardHub, load_shoreline
     from ..service.runner import Service
     from ..service.settings import ServiceSettings, TLSFiles, parse_broker_url
 
@@ -76,8 +79,11 @@ def run(
             tls=TLSFiles(str(ca_file) if ca_file else None, str(cert_file) if cert_file else None,
                          str(key_file) if key_file else None, tls_insecure),
             mqtt5=mqtt5, db_path=db, snapshot_every_s=snapshot_every, queue_size=queue_size,
-            http_host=http_host, http_port=None if http_port < 0 else http_port, http_token=token, **kw)  # type: ignore[arg-type]
-        service = Service(cfg, settings)
+            http_host=http_host, http_port=None if http_port < 0 else http_port, http_token=token,
+            stale_after_s=stale_after, **kw)  # type: ignore[arg-type]
+        hub = DashboardHub(cfg, stale_after_s=stale_after,
+                           shoreline=load_shoreline(shoreline) if shoreline is not None else None)
+        service = Service(cfg, settings, hub=hub)
     except FrontwatchError as exc:
         _fail(str(exc))
         return

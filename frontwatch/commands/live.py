@@ -9,7 +9,7 @@ import logging
 import signal
 import sys
 from pathlib import Path
-from typing import Annotated
+from typing import Annotated, Any
 
 import typer
 
@@ -102,8 +102,13 @@ def run(
         await _until_signalled(service.run(stop), stop)
         t.cancel()
 
+    _run_async(main())
+
+
+def _run_async(coro: Any) -> None:
+    """Run the service's event loop; a bad setting or a port that cannot be bound ends with one line."""
     try:
-        asyncio.run(main())
+        asyncio.run(coro)
     except FrontwatchError as exc:
         _fail(str(exc))
     except OSError as exc:
@@ -133,12 +138,7 @@ def demo(
         await _until_signalled(run_demo(data=data, broker=broker, speed=speed, http_port=http_port,
                                         exit_when_done=exit_when_done, stop=stop, say=say), stop)
 
-    try:
-        asyncio.run(main())
-    except FrontwatchError as exc:
-        _fail(str(exc))
-    except OSError as exc:
-        _fail(f"cannot start: {exc}")
+    _run_async(main())
     say("stopped")
 
 

@@ -31,9 +31,7 @@ class Split:
     split_index: int  # index that maximised the statistic
     strength: float  # sqrt(S) at the split, noise units
     sigma: np.ndarray  # per-channel noise used
-    pre_mean: np.ndarray
-    slope: np.ndarray  # per-minute drift removed (per channel; zero for wind)
-    detrended: np.ndarray  # the window with that drift removed, NaN kept
+    detrended: np.ndarray  # the window with the per-channel drift removed, NaN kept
     channel_split: np.ndarray  # per channel, the index of its own best split (its own change time)
     csum: np.ndarray  # (n+1, C) cumulative sums of the detrended window (NaN as 0) ...
     ccount: np.ndarray  # ... and of valid counts: any range mean in O(1)
@@ -146,4 +144,4 @@ def best_split(
         # the change must be under way at the onset sample itself
         while onset < j and frac[onset] < START_FRACTION:
             onset += 1
-    return Split(onset, j, float(np.sqrt(s[k])), sigma, pre_mean, slope, xd, channel_split, cs, cn)
+    return Split(onset, j, float(np.sqrt(s[k])), sigma, xd, channel_split, cs, cn)

@@ -68,23 +68,59 @@ def _match_front(fronts: list[dict[str, Any]], t: float) -> dict[str, Any] | Non
     return None
 
 
+def _station_series(sc: Any) -> dict[str, tuple[np.ndarray, ...]]:
+    """Per station: (epoch s, wind dir deg, speed m/s, gust m/s, temp degC) arrays of the scenario."""
+    df = sc.observations
+    t = np.array([parse_time(x) for x in df["time"]], dtype=float)
+    cols = [df[c].astype("float64").to_numpy(na_value=np.nan) for c in
+            ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms", "temp_c")]
+    out = {}
+    st = df["station"].to_numpy()
+    for sid in np.unique(st):
+        m = st == sid
+        out[str(sid)] = (t[m], *(c[m] for c in cols))
+    return out
+
+
+def _window_wind(series: tuple[np.ndarray, ...], a: float, b: float) -> tuple[float | None, float | None,
+                                                                             float | None, float | None]:
+    """(vector-mean direction, mean speed, highest gust, mean temperature) of the records in [a, b)."""
+    t, d, s, g, temp = series
+    m = (t >= a) & (t < b)
+    ok = m & np.isfinite(d) & np.isfinite(s)
+    if not ok.any():
+        return None, None, None, None
+    rad = np.radians(d[ok])
+    u, v = float(np.mean(s[ok] * np.sin(rad))), float(np.mean(s[ok] * np.cos(rad)))
+    dirn = float(np.degrees(np.arctan2(u, v)) % 360.0)
+    gm = m & np.isfinite(g)
+    tm = m & np.isfinite(temp)
+    return (dirn, float(np.mean(s[ok])), float(np.max(g[gm])) if gm.any() else None,
+            float(np.mean(temp[tm])) if tm.any() else None)
+
+
 def oracle_events(sc: Any, cfg: Any, seed: int) -> dict[tuple[str, float], PassageEvent]:
-    """Passage events as a good detector would give them: the true breeze-front passages (labels)
-    with onset noise (sd 2 min) and a detection delay of 3 to 8 min, keyed by (station, time)."""
+    """Passage events as a good detector would give them, keyed by (station, detection time): the
+    true breeze-front passages (labels) with onset noise (sd 2 min) and a detection delay of 3 to 8
+    min; the temperature change is the label's, and the winds are measured from the station's own
+    records over 40 to 10 min before the onset and from the onset to the detection (causal: what a
+    detector has seen when it decides). They feed the prior and the expected post-front conditions."""
     rng = np.random.default_rng(1000 + seed)
     out = {}
-    onshore = {s.id: s.onshore_from_deg for s in cfg.stations}
+    series = _station_series(sc)
     for lab in sc.labels:
         if lab["kind"] != "breeze_front":
             continue
         onset = 60.0 * round((parse_time(lab["time"]) + rng.normal(0, 120.0)) / 60.0)
         det = onset + 60.0 * int(rng.integers(3, 9))
         ch = lab["change"]
-        after = onshore[lab["station"]]
-        sp = ch.get("speed_after_ms")
-        ev = PassageEvent(lab["station"], "breeze_front", onset, det, 0.9, (after + 150.0) % 360.0, after,
-                          1.5, ch.get("temp_c"), ch.get("dewpoint_c"), ch.get("pressure_hpa"),
-                          speed_after_ms=sp, gust_after_ms=None if sp is None else 1.6 * sp, temp_after_c=None)
+        ser = series[lab["station"]]
+        d_b, s_b, _, _ = _window_wind(ser, onset - 2400.0, onset - 600.0)
+        d_a, s_a, g_a, t_a = _window_wind(ser, onset + 60.0, det + 60.0)
+        dsp = None if s_a is None or s_b is None else s_a - s_b
+        ev = PassageEvent(lab["station"], "breeze_front", onset, det, 0.9, d_b, d_a, dsp, ch.get("temp_c"),
+                          ch.get("dewpoint_c"), ch.get("pressure_hpa"), speed_after_ms=s_a, gust_after_ms=g_a,
+                          temp_after_c=t_a)
         out[(ev.station, det)] = ev
     return out
 
@@ -138,6 +174,9 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
     late_err: dict[tuple[str, str], float] = {}  # the last forecast issued >= 15 min before arrival
     inside: list[bool] = []
     first_lead: list[float] = []
+    first_err: list[float] = []  # error of the first forecast of each (site, front)
+    in_force: dict[int, list[float]] = defaultdict(list)
+    in_force_none: dict[int, int] = defaultdict(int)
     never_alerts = 0
     alert_lead: list[float] = []  # first approaching/imminent alert before the true arrival (0 = none)
     never_cases = 0
@@ -162,14 +201,25 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
             for o in pre:
                 eta_err.append((parse_time(o["eta"]) - tt) / 60.0)
                 eta_by[o["basis"]].append((parse_time(o["eta"]) - tt) / 60.0)
+                eta_by[f"n{min(o['stations'], 3)}"].append((parse_time(o["eta"]) - tt) / 60.0)
                 lead = (tt - parse_time(o["issued_at"])) / 60.0
                 if lead >= 15:
                     late_err[(o["site"], f["id"])] = (parse_time(o["eta"]) - tt) / 60.0
                 inside.append(parse_time(o["eta_earliest"]) <= tt <= parse_time(o["eta_latest"]))
             if pre:
                 first_lead.append((tt - parse_time(pre[0]["issued_at"])) / 60.0)
+                first_err.append((parse_time(pre[0]["eta"]) - tt) / 60.0)
             else:
                 first_lead.append(0.0)
+            # The forecast in force (the latest issued) LEAD min before the arrival, if any; a later
+            # status change (e.g. 'not expected') ends it.
+            every = [o for o in fcs if o["site"] == site and o["front"] in keys and parse_time(o["issued_at"]) < tt]
+            for lead in IN_FORCE_LEADS:
+                held = [o for o in every if parse_time(o["issued_at"]) <= tt - 60.0 * lead]
+                if held and held[-1]["status"] == "expected":
+                    in_force[lead].append((parse_time(held[-1]["eta"]) - tt) / 60.0)
+                else:
+                    in_force_none[lead] += 1
     # Alerts that belong to no true front (a tracked 'front' made of false detections).
     false_alerts = len({(a["site"], a["front"]) for a in alerts if ours.get(a["front"]) is None
                         and a["state"] in ("approaching", "imminent", "arrived")})
@@ -184,10 +234,15 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
     max_changes = max((len(s) - 1 for s in changes.values()), default=0)
     return {"seed": seed, "records": records, "seconds": elapsed, "fronts": len(fronts), "tracked": len(ours),
             "speed_err": speed_err, "head_err": head_err, "eta_err": eta_err, "first_lead": first_lead,
-            "eta_fit": eta_by["fit"], "eta_prior": eta_by["prior"], "eta_last15": list(late_err.values()),
+            "eta_fit": eta_by["fit"], "eta_prior": eta_by["prior"],
+            "eta_n": {k: eta_by[f"n{k}"] for k in (1, 2, 3)}, "first_err": first_err, "in_force": dict(in_force),
+            "in_force_none": dict(in_force_none), "eta_last15": list(late_err.values()),
             "inside": inside, "alert_lead": alert_lead, "false_alerts": false_alerts,
             "never_cases": never_cases, "never_alerts": never_alerts, "flaps": flaps, "max_changes": max_changes,
             "alerts": len(alerts), "forecasts": len(fcs), "paths": [" > ".join(s) for s in changes.values()]}
+
+
+IN_FORCE_LEADS = (60, 45, 30, 15)  # min before the true arrival
 
 
 def _med(xs: list[float]) -> float:
@@ -246,6 +301,17 @@ def report(a: argparse.Namespace, mode: str) -> None:
     print(f"    by basis: fit (>= 3 stations) median {_med(fit):.1f} min (n={len(fit)}), prior median {_med(pri):.1f} min "
           f"(n={len(pri)}); last forecast >= 15 min before arrival: median {_med(l15):.1f} min (n={len(l15)}); "
           f"true arrival inside the interval: {sum(ins)}/{len(ins)}")
+    sgn = [x for r in allr for x in r["eta_prior"]]
+    print("    by stations fitted: " + "; ".join(
+        f"{'3+' if k == 3 else k}: median {_med([abs(x) for r in allr for x in r['eta_n'][k]]):.1f} min "
+        f"(signed {_med([x for r in allr for x in r['eta_n'][k]]):+.1f}, n={sum(len(r['eta_n'][k]) for r in allr)})"
+        for k in (1, 2, 3)) + f"; prior signed median {_med(sgn):+.1f} min (+ = forecast late)")
+    fe = [x for r in allr for x in r["first_err"]]
+    print(f"    per (site, front): first forecast |err| median {_med([abs(x) for x in fe]):.1f} min (n={len(fe)}); "
+          "forecast in force before arrival: " + "; ".join(
+              f"{lead} min: median {_med([abs(x) for r in allr for x in r['in_force'].get(lead, [])]):.1f} "
+              f"(n={sum(len(r['in_force'].get(lead, [])) for r in allr)}, "
+              f"none {sum(r['in_force_none'].get(lead, 0) for r in allr)})" for lead in IN_FORCE_LEADS))
     al = [x for r in allr for x in r["alert_lead"]]
     print(f"  alert before arrival (same sites): {sum(x > 0 for x in al)}/{len(al)}; lead of the first: median "
           f"{_med([x for x in al if x > 0]):.0f} min; >= 15 min: {sum(x >= 15 for x in al)}/{len(al)}")

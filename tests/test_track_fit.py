@@ -139,3 +139,19 @@ def test_fitted_acceleration_term() -> None:
     # Without the acceleration (constant speed), no quadratic term is kept.
     g = fit_front([(x, y, x / 2.0 + (30.0 if i % 2 else -30.0)) for i, (x, y, _) in enumerate(pts)])
     assert g is not None and g.curv == 0.0
+
+
+def test_two_stations_give_the_speed_along_the_prior_heading() -> None:
+    """Two stations, the second 6 km further along the prior heading (west) and 5 km along the shore,
+    reached 2000 s later: the two-station fit keeps the heading near the shore normal and takes the
+    speed from the data, 6000 m / 2000 s = 3 m/s (hand-worked), although the prior says 1 m/s. The
+    heading prior is an angle: it is not loosened because the prior's speed is wrong (an earlier
+    form scaled it by the prior's slowness and turned this front 16 deg to 2.2 m/s)."""
+    f = fit_front([(0.0, 0.0, 0.0), (-6000.0, 5000.0, 2000.0)], Prior(1.0, 270.0, 0.7, 20.0))
+    assert f is not None and f.used_prior
+    assert f.speed_ms == pytest.approx(3.0, rel=0.10)
+    assert abs(f.heading_deg - 270.0) <= 5.0
+    # Straight along the heading the data decide alone.
+    g = fit_front([(0.0, 0.0, 0.0), (-6000.0, 0.0, 2000.0)], Prior(1.0, 270.0, 0.7, 20.0))
+    assert g is not None
+    assert g.speed_ms == pytest.approx(3.0, rel=0.01) and g.heading_deg == pytest.approx(270.0, abs=0.1)

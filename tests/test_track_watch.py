@@ -163,3 +163,30 @@ def test_site_with_no_station_gets_an_estimated_arrival_warning() -> None:
     alerts = [o for o in out if o["type"] == "alert" and o["site"] == "field"]
     assert alerts
     assert any("estimated" in w for w in alerts[0]["data_warnings"])
+
+
+def test_second_station_joins_a_front_faster_than_its_prior() -> None:
+    """The prior of a one-station front is a guess (here 1 m/s: a weak cooling against an opposing
+    wind); the second station, 12 km further along, sees the front 50 min later (4 m/s). It joins
+    the same front (a breeze-front speed between the two) instead of starting another, and the
+    two-station fit gives the speed."""
+    from frontwatch.network.track import FrontTracker
+
+    pos = {"A": (0.0, 0.0, 90.0), "B": (-12_000.0, 1000.0, 90.0)}
+    tr = FrontTracker(pos)
+    t0 = T0
+
+    def ev(st: str, onset: float) -> PassageEvent:
+        return PassageEvent(st, "breeze_front", onset, onset + 240.0, 0.9, 270.0, 90.0, -2.0, -0.5, 2.0, 0.3,
+                            speed_after_ms=4.0, gust_after_ms=6.0, temp_after_c=24.0)
+
+    fa = tr.add(ev("A", t0))
+    assert fa is not None and fa.fit is not None and fa.fit.speed_ms < 1.5  # the prior: slow
+    fb = tr.add(ev("B", t0 + 3000.0))
+    assert fb is fa and len(tr.fronts) == 1 and set(fa.arrivals) == {"A", "B"}
+    assert fa.fit is not None and fa.fit.speed_ms == pytest.approx(4.0, rel=0.10)
+    # A passage that would need 30 m/s is no breeze front of this one: a new front.
+    fc = FrontTracker(pos)
+    fc.add(ev("A", t0))
+    fc.add(ev("B", t0 + 400.0))
+    assert len(fc.fronts) == 2

@@ -29,6 +29,10 @@ MIN_SPREAD_RATIO = 0.15
 # combined with the prior instead (when one is given).
 MAX_REL_SLOWNESS_SD = 0.3
 MAX_HEADING_SD_DEG = 25.0
+# The prior's across-track sd follows the slowness the data give (see _fit_with_prior): passes of
+# that fixed point, and a floor on the slowness it uses (1/20 s/m: no breeze front runs at 20 m/s).
+PRIOR_PASSES = 6
+MIN_SLOWNESS = 0.05
 # Acceleration: fitted from this many stations on, kept when significant (|c| >= CURV_T se) and
 # when the front's speed at its last station stays below MAX_SPEED_MS.
 CURV_MIN_STATIONS = 5
@@ -199,25 +203,7 @@ def fit_front(
             use_prior = True  # e.g. stations the front reached almost together: lean on the prior
     if use_prior:
         assert prior is not None
-        # Prior mean and covariance of s in the (along, across) frame of the prior heading.
-        h = math.radians(prior.heading_deg)
-        u = np.array([math.sin(h), math.cos(h)])  # unit vector of motion
-        w = np.array([math.cos(h), -math.sin(h)])  # across
-        s0 = 1.0 / max(prior.speed_ms, 0.1)
-        sd_along = prior.speed_rel_sd * s0
-        sd_across = math.tan(math.radians(prior.heading_sd_deg)) * s0
-        rot = np.column_stack([u, w])
-        p_cov = rot @ np.diag([sd_along**2, sd_across**2]) @ rot.T
-        prec = np.zeros((3, 3))
-        prec[1:, 1:] = np.linalg.inv(p_cov)
-        prec[0, 0] = 1e-12  # flat prior on t0
-        mean = np.array([0.0, *(s0 * u)])
-        sig2 = onset_sigma_s**2
-        post_prec = a.T @ a / sig2 + prec
-        cov = np.linalg.inv(post_prec)
-        beta = cov @ (a.T @ b / sig2 + prec @ mean)
-        resid = b - a @ beta
-        rss = float(resid @ resid)
+        beta, cov, rss = _fit_with_prior(a, b, prior, onset_sigma_s)
     rms = math.sqrt(rss / n)
     if not use_prior and n >= CURV_MIN_STATIONS:
         curved = _fit_curved(arr, ref, tref, beta, onset_sigma_s)
@@ -233,6 +219,45 @@ def fit_front(
         residual_rms_s=rms,
         used_prior=use_prior,
     )
+
+
+def _fit_with_prior(a: np.ndarray, b: np.ndarray, prior: Prior,
+                    onset_sigma_s: float) -> tuple[np.ndarray, np.ndarray, float]:
+    """Gaussian posterior of (t0, sx, sy) from the arrival times and the prior on the slowness.
+
+    The prior is set in the frame of the prior heading: along it, mean 1/speed with a relative sd;
+    across it, mean 0 with sd tan(heading sd) times the along-track slowness. That across sd scales
+    with the slowness the data give, not with the prior's: a heading uncertainty is an angle, and
+    with the prior's (often too small or too large) speed in it, two stations whose speed differs
+    from the prior's would be explained by turning the front instead (an error of the old form: a
+    prior at 1 m/s let a 3 m/s front seen at two stations swing 40 deg off the shore normal). With two
+    stations apart along the heading this is the two-station fit: the heading from the shore normal,
+    the speed from the two arrival times. A few fixed-point passes settle the across sd.
+    """
+    h = math.radians(prior.heading_deg)
+    u = np.array([math.sin(h), math.cos(h)])  # unit vector of motion
+    w = np.array([math.cos(h), -math.sin(h)])  # across
+    s0 = 1.0 / max(prior.speed_ms, 0.1)
+    sd_along = prior.speed_rel_sd * s0
+    rot = np.column_stack([u, w])
+    mean = np.array([0.0, *(s0 * u)])
+    sig2 = onset_sigma_s**2
+    s_along = s0
+    for _ in range(PRIOR_PASSES):
+        sd_across = math.tan(math.radians(prior.heading_sd_deg)) * max(s_along, MIN_SLOWNESS)
+        p_cov = rot @ np.diag([sd_along**2, sd_across**2]) @ rot.T
+        prec = np.zeros((3, 3))
+        prec[1:, 1:] = np.linalg.inv(p_cov)
+        prec[0, 0] = 1e-12  # flat prior on t0
+        cov = np.linalg.inv(a.T @ a / sig2 + prec)
+        beta = cov @ (a.T @ b / sig2 + prec @ mean)
+        s_new = float(beta[1:3] @ u)
+        if abs(s_new - s_along) <= 1e-3 * s0:
+            s_along = s_new
+            break
+        s_along = s_new
+    resid = b - a @ beta
+    return beta, cov, float(resid @ resid)
 
 
 def _fit_curved(arr: np.ndarray, ref: np.ndarray, tref: float, beta: np.ndarray,

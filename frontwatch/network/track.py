@@ -26,6 +26,8 @@ JOIN_TOL_S = 20 * 60.0  # an onset this close to the prediction (or 3 sd) joins 
 JOIN_SIGMAS = 3.0
 JOIN_TOL_MAX_S = 60 * 60.0
 JOIN_MODEL_REL_ERR = 0.12  # as forecast.MODEL_REL_ERR  # however uncertain the prediction (a prior far from its station), no more
+JOIN_SPEED_MS = (0.5, 10.0)  # speeds a breeze front may have between two stations (see _prior_join)
+JOIN_MIN_DQ_M = 2000.0  # ... when the new station is at least this much further along the motion
 LINK_M = 60_000.0  # a joining station is at most this far from one already in the front
 OVERDUE_MIN_S = 15 * 60.0  # a station is overdue this long (or 2.5 sd) after its predicted time
 OVERDUE_SIGMAS = 2.5
@@ -166,8 +168,11 @@ class FrontTracker:
             if fr.stalled_at is not None and arr.onset > t_pred:
                 # A stalled front that moves on later: accept a late arrival further along.
                 err = 0.0 if fr.fit.progress(arr.x, arr.y) > fr.max_progress() else err
-            if err <= tol and err / tol < best_z:
-                best, best_z = fr, err / tol
+            z = err / tol
+            if z > 1.0 and fr.fit.used_prior:
+                z = self._prior_join(fr, arr)
+            if z <= 1.0 and z < best_z:
+                best, best_z = fr, z
         if best is None:
             best = Front(key=f"{ev.station}-{compact_z(ev.onset)}")
             self.fronts.append(best)
@@ -180,6 +185,28 @@ class FrontTracker:
         best.refit()
         self._set_deadlines(best)
         return best
+
+    @staticmethod
+    def _prior_join(fr: Front, arr: Arrival) -> float:
+        """Join score (<= 1 joins) of a passage against a front known only from its prior (one or two
+        stations, or stations on a line).
+
+        The prior's speed is a guess good to a factor of two or so (the depth of the marine air and
+        k are not observed), so its predicted time is no test of membership: a passage further along
+        the front's motion than any station it reached joins when the speed it implies from the
+        furthest one lies within the speeds breeze fronts have, JOIN_SPEED_MS (a lake-breeze front
+        averaged 1.4 m/s, Keeler & Kristovich 2012; sea-breeze fronts from under 3 to over 6 m/s,
+        Linacre & Geerts 1997; the bounds are wider than that, from memory). It scores just under 1:
+        a front whose own prediction fits the passage is preferred."""
+        f = fr.fit
+        assert f is not None
+        far = max(fr.arrivals.values(), key=lambda a: f.progress(a.x, a.y))
+        dq = f.progress(arr.x, arr.y) - f.progress(far.x, far.y)
+        dt = arr.onset - far.onset
+        if dq < JOIN_MIN_DQ_M or dt <= 0.0:
+            return math.inf
+        v = dq / dt
+        return 0.99 if JOIN_SPEED_MS[0] <= v <= JOIN_SPEED_MS[1] else math.inf
 
     def _set_deadlines(self, fr: Front) -> None:
         f = fr.fit

@@ -190,3 +190,22 @@ def test_second_station_joins_a_front_faster_than_its_prior() -> None:
     fc.add(ev("A", t0))
     fc.add(ev("B", t0 + 400.0))
     assert len(fc.fronts) == 2
+
+
+def test_front_stopping_just_short_of_a_site_without_station_is_never_called_arrived() -> None:
+    """The front stops 1 km short of 'field' (no station of its own, 15 km inland): the stations at
+    0, 6 and 12 km see it, those at 18 and 24 km never do. Its ETA passes with nothing to confirm the
+    passage; the site is not called 'arrived' from the track alone while stations further along can
+    still tell (they stay silent), and once the stall is called it is 'not expected' (it lies beyond
+    the furthest station the front reached). Alerts may have gone out: they end 'cancelled'."""
+    cfg = _network()
+    evs = front_events(cfg, t0=T0, speed_ms=2.5, heading_deg=270.0, lat0=LAT0, lon0=LON0, stop_progress_m=14_000)
+    assert {e.station[:2] for e in evs} == {"S0", "S1", "S2"}
+    out = _run(cfg, evs)
+    field = [o for o in out if o.get("site") == "field"]
+    assert not [o for o in field if o["type"] == "forecast" and o["status"] == "arrived"]
+    assert not [o for o in field if o["type"] == "alert" and o["state"] in ("arrived", "clear")]
+    fcs = [o for o in field if o["type"] == "forecast"]
+    assert fcs[-1]["status"] == "not_expected" and fcs[-1]["reason"] == "stalled"
+    alerts = [o for o in field if o["type"] == "alert"]
+    assert not alerts or alerts[-1]["state"] == "cancelled"

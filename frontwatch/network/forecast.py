@@ -3,9 +3,10 @@
 The ETA is the fitted front's arrival time at the site, sped up as fronts do through the day (see
 FrontFit.predict) unless the fit has measured the acceleration itself. Its interval is 90 %
 (1.645 sd) of the fit's own uncertainty, the assumed speed-up, and a model error that grows with the
-lead time (real fronts also slow down and bend): MODEL_REL_ERR of the lead time (common practice,
-no source). Expected post-front conditions come from the most recent upstream
-passages of the same front.
+time the front is extrapolated over (real fronts also slow down and bend): MODEL_REL_ERR of the
+time from the front's latest passage to the ETA (common practice, no source). That span, not the
+lead from now, is what the forecast bridges: an interval does not narrow while no station reports.
+Expected post-front conditions come from the most recent upstream passages of the same front.
 """
 
 from __future__ import annotations
@@ -171,7 +172,8 @@ def forecast_for_site(
     """The forecast for a site at (x, y) from `front` at data time `now`.
 
     `arrived_at` is the onset of the passage at the site's own station, if it has reported;
-    `stall_progress` is where a stalled front is known to have stopped (None if still moving).
+    `stall_progress` is the furthest a stalled front is known to have come (None if still moving):
+    a site beyond it is 'not expected' (reason 'stalled').
     A site whose station is up and silent well past the ETA is 'not expected' (reason 'overdue'), and
     so is one the front would reach only after `day_end` (reason 'after_day_end').
     """
@@ -187,7 +189,7 @@ def forecast_for_site(
     if arrived_at is not None:
         return SiteForecast(status=ARRIVED, eta=arrived_at, eta_earliest=None, eta_latest=None, **common)
     eta, eta_lin, sd = f.predict(x, y)
-    if stall_progress is not None and f.progress(x, y) >= stall_progress:
+    if stall_progress is not None and f.progress(x, y) > stall_progress:
         return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
                             reason="stalled", **common)
     if not f.speed_ms < 1e4 or eta < front.first_onset - 1800.0:
@@ -202,8 +204,10 @@ def forecast_for_site(
         # day_end_h) would fade first and could not be confirmed (common practice).
         return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
                             reason="after_day_end", **common)
-    lead = max(eta - now, 0.0)
+    span = max(eta - front.last_onset, 0.0)  # extrapolated from the latest passage
     acc = eta_lin - eta  # the speed-up assumed is itself uncertain: count it as one sd
-    half = max(Z90 * math.sqrt(sd * sd + (MODEL_REL_ERR * lead) ** 2 + acc * acc), MIN_HALF_WIDTH_S)
-    return SiteForecast(status=EXPECTED, eta=eta, eta_earliest=max(eta - half, now), eta_latest=eta + half,
+    half = max(Z90 * math.sqrt(sd * sd + (MODEL_REL_ERR * span) ** 2 + acc * acc), MIN_HALF_WIDTH_S)
+    # The interval starts no earlier than now, and never after the ETA (an ETA already past, not yet
+    # confirmed at the site, keeps [eta, eta + half]).
+    return SiteForecast(status=EXPECTED, eta=eta, eta_earliest=max(eta - half, min(now, eta)), eta_latest=eta + half,
                         **common)

@@ -259,11 +259,14 @@ class FrontTracker:
         return changed
 
     def stall_progress(self, fr: Front) -> float | None:
-        """Progress (m along the motion) beyond which the stalled front is not expected; None if moving."""
+        """Progress (m along the motion) beyond which the stalled front is not expected; None if moving.
+
+        That is the furthest station it reached, not the nearest overdue one: the front stopped
+        somewhere between them, and nothing shows it went beyond the last station that saw it (a
+        decelerating front stops soon after its last station). A site in between is told so."""
         if fr.stalled_at is None or fr.fit is None or not fr.overdue:
             return None
-        f = fr.fit
-        return min(f.progress(*self.positions[s][:2]) for s in fr.overdue)
+        return fr.max_progress()
 
     def expire(self, now: float) -> list[Front]:
         """Close fronts with no new passage for FRONT_TTL_S; returns them."""

@@ -32,7 +32,7 @@ from ..obs import Observation
 from ..timeutil import LocalClock
 from .forecast import ARRIVED, EXPECTED, NOT_EXPECTED, SiteForecast, forecast_for_site
 from .race import CourseMonitor, CourseReport
-from .track import FRONT_TTL_S, STATION_UP_S, Front, FrontTracker
+from .track import FRONT_TTL_S, LINK_M, STATION_UP_S, Front, FrontTracker
 
 SITE_STATION_MAX_M = 5000.0  # the nearest station stands for a site only this close
 ARRIVAL_MATCH_S = 30 * 60.0
@@ -155,8 +155,10 @@ class SiteWatch:
             return site.arrived[1]  # once arrived, the time stays (later refits do not move it)
         if site.station is None:
             # No station of its own: estimated from the track once a station at least as far along
-            # has reported, or once the ETA has passed with the front still moving and every
-            # station short of the site reached.
+            # has reported. Only when no live station lies further along either (nothing could
+            # confirm it) is the ETA passing enough, with the front still moving and every station
+            # short of the site reached. (A front that slows and stops just short of the site shows
+            # as silence at the stations beyond it: the site stays 'imminent', then 'not expected'.)
             f = fr.fit
             if f is None:
                 return None
@@ -166,7 +168,8 @@ class SiteWatch:
                 return None  # behind where the front was first seen: not on its path (forecast says so)
             if any(f.progress(a.x, a.y) >= p for a in fr.arrivals.values()):
                 return eta
-            if fr.stalled_at is None and now >= eta and self._pending(site, fr, now) == 0:
+            if fr.stalled_at is None and now >= eta and self._pending(site, fr, now) == 0 \
+                    and not self._confirmable(site, fr, now):
                 return eta  # (a checkpoint short of the site still to report: wait for it or a stall)
             return None
         a = fr.arrivals.get(site.station)
@@ -176,6 +179,20 @@ class SiteWatch:
         if seen is not None and fr.first_onset - ARRIVAL_MATCH_S <= seen <= fr.last_change + FRONT_TTL_S:
             return seen
         return None
+
+    def _confirmable(self, site: _Site, fr: Front, now: float) -> bool:
+        """True when a live station the front has not reached lies at least as far along its motion
+        as the site (within LINK_M of it): its passage would confirm the site's."""
+        f = fr.fit
+        if f is None:
+            return False
+        p_site = f.progress(site.x, site.y)
+        for sid, (x, y, _) in self.tracker.positions.items():
+            if sid in fr.arrivals or now - self.last_seen.get(sid, -math.inf) > STATION_UP_S:
+                continue
+            if f.progress(x, y) >= p_site and math.hypot(x - site.x, y - site.y) <= LINK_M:
+                return True
+        return False
 
     def _pending(self, site: _Site, fr: Front, now: float) -> int:
         """Live stations not yet reached that lie between the front's reach and the site, near its track."""

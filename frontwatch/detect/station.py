@@ -110,10 +110,14 @@ class StationDetector:
         return None
 
     # ------------------------------------------------------------------ scoring and deciding
-    def _evaluate(self, now: float) -> PassageEvent | None:
+    def _evaluate(self, now: float, arr: np.ndarray | None = None) -> PassageEvent | None:
+        """Score and decide at `now`. `arr` is the ring as an array when the caller has it already
+        (frontwatch.batch keeps a station's rows in one array); else it is built from the ring."""
         st = self.settings
-        ring = self.ring
-        arr = np.fromiter(itertools.chain.from_iterable(ring), float, len(ring) * _NCOL).reshape(len(ring), _NCOL)
+        from_ring = arr is None
+        if arr is None:
+            ring = self.ring
+            arr = np.fromiter(itertools.chain.from_iterable(ring), float, len(ring) * _NCOL).reshape(len(ring), _NCOL)
         t = arr[:, _T]
         x = arr[:, _TC:_P + 1]
         earliest = max(now - st.max_wait_min * 60.0, self.quiet_until)
@@ -130,7 +134,7 @@ class StationDetector:
         if t_o < self.quiet_until:
             self.pending = False
             return None
-        sig = self._signature(arr, sp, o, now)
+        sig = self._signature(arr, list(self.ring) if from_ring else arr.tolist(), sp, o, now)
         can_wait = now - t_o < st.max_wait_min * 60.0
         dec = classify(sig, st, self.halfwidth, can_wait, self.averaging)
         if dec.kind is None:
@@ -163,7 +167,7 @@ class StationDetector:
                                                                     if np.isfinite(arr[-3:, _TC]).any() else NAN),
         )
 
-    def _signature(self, arr: np.ndarray, sp: Any, o: int, now: float) -> Signature:
+    def _signature(self, arr: np.ndarray, rows: list[Any], sp: Any, o: int, now: float) -> Signature:
         st = self.settings
         t = arr[:, _T]
         t_o = t[o]
@@ -179,7 +183,7 @@ class StationDetector:
         post, n_post = sp.range_mean(o, n)
         with np.errstate(all="ignore"):
             z = (post - pre) / sp.sigma * np.sqrt(n_pre * n_post / np.maximum(n_pre + n_post, 1))
-        rows = list(self.ring)  # the small parts below are cheaper in plain Python than in numpy
+        # (rows: the ring as Python rows; the small parts below are cheaper in plain Python than in numpy)
         u0, v0 = _mean2(rows, wind_lo, o, _U, _V)
         ur, vr = _mean2(rows, rec_lo, n, _U, _V)
         if self.averaging > 1 and ur == ur and u0 == u0:

@@ -1,0 +1,218 @@
+"""Station-major replay: the outputs of Engine.feed record by record, computed station by station.
+
+An offline replay holds every record at once, so each station's series goes through QC, the wind
+conversion and the gate in one compiled scan (frontwatch.scan), and the full change-point
+evaluation (Python, the same StationDetector._evaluate the live path runs) only on the minutes the
+gate opens or a candidate is pending. The stations' events are then put back in stream order
+(the record that emitted each one) and go through the network steps (corroboration, the site
+watch) exactly as Engine.feed would pass them, with the site watch fed only the records that can
+change what it says (its own stations' records, minute boundaries, events), its 'last seen' times
+brought up to date before each. The outputs, statistics and final engine state equal the
+record-by-record path's; tests/test_core_batch.py checks it on every generated preset.
+"""
+
+from __future__ import annotations
+
+from bisect import bisect_right
+from collections import deque
+from collections.abc import Callable
+from typing import Any
+
+import numpy as np
+
+from . import scan as scanmod
+from .detect import gate as gatemod
+from .detect.gate import Gate
+from .detect.station import RESET_GAP_S, StationDetector
+from .engine import MAX_UNKNOWN, Engine, Output
+from .events import PassageEvent
+from .obs import Observation
+
+GATE_CONSTS = (gatemod.FAST, gatemod.SLOW, gatemod.WANDER, gatemod.K2, gatemod.FLOOR_T, gatemod.FLOOR_W,
+               gatemod.MIN_WANDER)
+_FIELDS = ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms", "temp_c", "dewpoint_c", "pressure_hpa", "rain_mm")
+
+
+def usable(eng: Engine, times: np.ndarray) -> bool:
+    """The batch path applies to a fresh engine over records in time order (what merge() gives)."""
+    if not scanmod.available():
+        return False
+    if eng.stats.records or any(d.ring for d in eng.detectors.values()):
+        return False
+    if eng.watch is not None and eng.watch.minute != -1:
+        return False
+    return bool(len(times) < 2 or np.all(times[1:] >= times[:-1]))
+
+
+def run(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
+        progress: Callable[[int], None] | None = None) -> list[Output]:
+    """Feed all records (station ids, canonical columns; in time order) through `eng`; its outputs."""
+    n = len(station)
+    nan = np.full(n, np.nan)
+    cols = {k: np.asarray(columns.get(k, nan), dtype=float) for k in _FIELDS}
+    times = np.asarray(columns["time"], dtype=float)
+    stats = eng.stats
+    stats.records += n
+    ids, inv = np.unique(station.astype(str), return_inverse=True)
+    order = np.argsort(inv, kind="stable")  # station-major, each station's records in stream order
+    bounds = np.searchsorted(inv[order], np.arange(len(ids) + 1))
+    used = np.zeros(n, dtype=bool)
+    # The QC'd records, as the site watch is given them (the rain is not QC'd)
+    clean = {k: np.full(n, np.nan) for k in _FIELDS[:-1]}
+    raw: list[tuple[int, PassageEvent]] = []
+    unknown_pos: list[int] = []
+    done = 0
+    for k, sid in enumerate(ids.tolist()):
+        pos = order[bounds[k]:bounds[k + 1]]
+        pair = eng._pairs.get(sid)
+        if pair is None:
+            unknown_pos.extend(pos.tolist())
+            continue
+        q, det = pair
+        qs = scanmod.qc_state(q)
+        gs = np.array(det.gate.state(), dtype=float)
+        qp = scanmod.qc_params(q, GATE_CONSTS, RESET_GAP_S)
+        rows, wd, ws, flags, opened, reset, _ = scanmod.scan(
+            times[pos], cols["wind_dir_deg"][pos], cols["wind_speed_ms"][pos], cols["wind_gust_ms"][pos],
+            cols["temp_c"][pos], cols["dewpoint_c"][pos], cols["pressure_hpa"][pos], cols["rain_mm"][pos],
+            qs, qp, gs, np.nan, det._sin_o, det._cos_o)
+        scanmod.set_qc_state(q, qs)
+        _count_flags(stats.qc, flags)
+        ok = (flags & scanmod.REFUSED_BITS) == 0
+        acc = pos[ok]
+        used[acc] = True
+        clean["wind_dir_deg"][acc] = wd[ok]
+        clean["wind_speed_ms"][acc] = ws[ok]
+        rows = np.ascontiguousarray(rows[ok])
+        for name, col in (("wind_gust_ms", 8), ("temp_c", 1), ("dewpoint_c", 2), ("pressure_hpa", 5)):
+            clean[name][acc] = rows[:, col]
+        if len(rows):
+            stats.last_time[sid] = float(rows[-1, 0])
+        raw.extend(_detect(det, rows, opened[ok], reset[ok], acc))
+        det.gate = Gate()
+        det.gate.set_state(gs.tolist())
+        done += len(pos)
+        if progress is not None:
+            progress(done)
+    stats.used += int(used.sum())
+    u = stats.unknown_stations
+    for i in sorted(unknown_pos):  # in stream order: which ids are counted by name depends on it
+        s = str(station[i])
+        u[s if s in u or len(u) < MAX_UNKNOWN else "(others)"] += 1
+    raw.sort(key=lambda x: x[0])
+    out = _network(eng, raw, station, times, used, cols, clean)
+    if progress is not None:
+        progress(n)
+    return out
+
+
+def _count_flags(counter: Any, flags: np.ndarray) -> None:
+    nz = flags[flags != 0]
+    if not len(nz):
+        return
+    for b, name in enumerate(scanmod.FLAG_NAMES):
+        c = int(np.count_nonzero(nz & (1 << b)))
+        if c:
+            counter[name] += c
+
+
+def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: np.ndarray,
+            gpos: np.ndarray) -> list[tuple[int, PassageEvent]]:
+    """StationDetector.update's decisions over a station's scanned rows: evaluate where the gate
+    opened or a candidate is pending (ring long enough, past the quiet time); leave the detector
+    in the state record-by-record feeding would leave it."""
+    st = det.settings
+    n = len(rows)
+    maxlen = det.maxlen
+    c = (st.confirm_min - 1) * 60.0
+    t = rows[:, 0]
+    tl = t.tolist()
+    cand = np.flatnonzero(opened).tolist()
+    seg = np.flatnonzero(reset).tolist()  # indices where the ring restarted
+    out: list[tuple[int, PassageEvent]] = []
+    j = 0  # next candidate in cand
+    i = -1
+    while True:
+        if det.pending and i + 1 < n:
+            i += 1
+        else:
+            while j < len(cand) and cand[j] <= i:
+                j += 1
+            if j >= len(cand):
+                break
+            i = cand[j]
+        if reset[i]:
+            det.pending = False
+            if not opened[i]:
+                continue
+        k = bisect_right(seg, i)
+        start = seg[k - 1] if k else 0
+        length = min(maxlen, i - start + 1)
+        if length >= 20 and tl[i] - c >= det.quiet_until:
+            ev = det._evaluate(tl[i], rows[i - length + 1:i + 1].copy())
+            if ev is not None:
+                out.append((int(gpos[i]), ev))
+        if i + 1 >= n:
+            break
+    if n:
+        start = seg[-1] if seg else 0
+        det.ring = deque(map(tuple, rows[max(start, n - maxlen):].tolist()), maxlen=maxlen)
+    return out
+
+
+def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], station: np.ndarray, times: np.ndarray,
+             used: np.ndarray, cols: dict[str, np.ndarray], clean: dict[str, np.ndarray]) -> list[Output]:
+    """Corroboration and the site watch over the events in stream order (Engine.feed's tail)."""
+    stats = eng.stats
+    watch = eng.watch
+    out: list[Output] = []
+    if watch is None:
+        for _, e in raw:
+            e = eng.corroborate.check(e)
+            stats.events[e.kind] += 1
+            out.append(e)
+        return out
+    upos = np.flatnonzero(used)
+    ut = times[upos]
+    ust = station[upos].astype(str)
+    # Records the watch must see: its own stations', the first of each new minute, the events'.
+    watched = np.isin(ust, list(watch._watched))
+    minute = np.floor_divide(ut, 60.0)
+    new_minute = np.ones(len(ut), dtype=bool)
+    new_minute[1:] = minute[1:] > minute[:-1]
+    ev_at: dict[int, PassageEvent] = dict(raw)
+    ev_mask = np.isin(upos, np.fromiter(ev_at, dtype=np.int64, count=len(ev_at)))
+    calls = np.flatnonzero(watched | new_minute | ev_mask).tolist()
+    ut_l = ut.tolist()
+    ust_l = ust.tolist()
+    upos_l = upos.tolist()
+    last_seen = watch.last_seen
+    synced = 0  # used records [0, synced) are in last_seen
+    for ci in calls:
+        t = ut_l[ci]
+        g = upos_l[ci]
+        ev: PassageEvent | None = ev_at.get(g)
+        if ev is None and t < watch._next_tick:
+            if watched[ci]:
+                watch.observe(_obs(ust_l[ci], t, g, cols, clean), None)  # updates its course monitors
+            continue
+        if synced < ci:
+            last_seen.update(zip(ust_l[synced:ci], ut_l[synced:ci], strict=True))
+        synced = ci + 1
+        o = _obs(ust_l[ci], t, g, cols, clean)
+        if ev is not None:
+            ev = eng.corroborate.check(ev)
+            stats.events[ev.kind] += 1
+            out.append(ev)
+        out.extend(watch.observe(o, ev))
+    if synced < len(ut_l):
+        last_seen.update(zip(ust_l[synced:], ut_l[synced:], strict=True))
+    return out
+
+
+def _obs(sid: str, t: float, g: int, cols: dict[str, np.ndarray], clean: dict[str, np.ndarray]) -> Observation:
+    """The record as Engine.feed hands it to the watch: QC'd."""
+    c = clean
+    return Observation(sid, t, float(c["wind_dir_deg"][g]), float(c["wind_speed_ms"][g]), float(c["wind_gust_ms"][g]),
+                       float(c["temp_c"][g]), float(c["dewpoint_c"][g]), float(c["pressure_hpa"][g]),
+                       float(cols["rain_mm"][g]))

@@ -174,12 +174,14 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
     late_err: dict[tuple[str, str], float] = {}  # the last forecast issued >= 15 min before arrival
     inside: list[bool] = []
     first_lead: list[float] = []
+    first_lead2: list[float] = []  # lead of the first forecast from >= 2 stations (0 = none before arrival)
     first_err: list[float] = []  # error of the first forecast of each (site, front)
     in_force: dict[int, list[float]] = defaultdict(list)
     in_force_none: dict[int, int] = defaultdict(int)
     never_alerts = 0
     alert_lead: list[float] = []  # first approaching/imminent alert before the true arrival (0 = none)
     never_cases = 0
+    never_paths: list[str] = []  # per alerted never-reached case: highest state, last state
     for f in fronts:
         first_st = min((parse_time(t) for t in f["station_arrivals"].values() if t), default=None)
         keys = [k for k, v in ours.items() if v is f]
@@ -189,6 +191,11 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
             if t_true is None:
                 never_cases += 1
                 never_alerts += bool(site_alerts)
+                if site_alerts:
+                    every = [a for a in alerts if a["site"] == site and a["front"] in keys]
+                    top = "arrived" if any(a["state"] == "arrived" for a in site_alerts) else (
+                        "imminent" if any(a["state"] == "imminent" for a in site_alerts) else "approaching")
+                    never_paths.append(f"{top}, ended {every[-1]['state']}")
                 continue
             tt = parse_time(t_true)
             if first_st is None or tt - first_st < 20 * 60:
@@ -206,6 +213,8 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
                 if lead >= 15:
                     late_err[(o["site"], f["id"])] = (parse_time(o["eta"]) - tt) / 60.0
                 inside.append(parse_time(o["eta_earliest"]) <= tt <= parse_time(o["eta_latest"]))
+            pre2 = [o for o in pre if o["stations"] >= 2]
+            first_lead2.append((tt - parse_time(pre2[0]["issued_at"])) / 60.0 if pre2 else 0.0)
             if pre:
                 first_lead.append((tt - parse_time(pre[0]["issued_at"])) / 60.0)
                 first_err.append((parse_time(pre[0]["eta"]) - tt) / 60.0)
@@ -238,7 +247,8 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
             "eta_n": {k: eta_by[f"n{k}"] for k in (1, 2, 3)}, "first_err": first_err, "in_force": dict(in_force),
             "in_force_none": dict(in_force_none), "eta_last15": list(late_err.values()),
             "inside": inside, "alert_lead": alert_lead, "false_alerts": false_alerts,
-            "never_cases": never_cases, "never_alerts": never_alerts, "flaps": flaps, "max_changes": max_changes,
+            "never_cases": never_cases, "never_alerts": never_alerts, "never_paths": never_paths,
+            "first_lead2": first_lead2, "flaps": flaps, "max_changes": max_changes,
             "alerts": len(alerts), "forecasts": len(fcs), "paths": [" > ".join(s) for s in changes.values()]}
 
 
@@ -312,6 +322,10 @@ def report(a: argparse.Namespace, mode: str) -> None:
               f"{lead} min: median {_med([abs(x) for r in allr for x in r['in_force'].get(lead, [])]):.1f} "
               f"(n={sum(len(r['in_force'].get(lead, [])) for r in allr)}, "
               f"none {sum(r['in_force_none'].get(lead, 0) for r in allr)})" for lead in IN_FORCE_LEADS))
+    n2 = [abs(x) for r in allr for k in (2, 3) for x in r["eta_n"][k]]
+    l2 = [x for r in allr for x in r["first_lead2"]]
+    print(f"    if forecasts from one station were withheld: median |err| {_med(n2):.1f} min (n={len(n2)}); first "
+          f"forecast >= 15 min before arrival: {sum(x >= 15 for x in l2)}/{len(l2)}, median lead {_med(l2):.0f} min")
     al = [x for r in allr for x in r["alert_lead"]]
     print(f"  alert before arrival (same sites): {sum(x > 0 for x in al)}/{len(al)}; lead of the first: median "
           f"{_med([x for x in al if x > 0]):.0f} min; >= 15 min: {sum(x >= 15 for x in al)}/{len(al)}")
@@ -319,6 +333,9 @@ def report(a: argparse.Namespace, mode: str) -> None:
           f"{sum(r['never_cases'] for r in allr)} cases; alerts with no true front: "
           f"{sum(r['false_alerts'] for r in allr)}; flaps (imminent -> approaching): "
           f"{sum(r['flaps'] for r in allr)}; most state changes of one alert: {max(r['max_changes'] for r in allr)}")
+    paths = [p for r in allr for p in r["never_paths"]]
+    if paths:
+        print("    never-reached sites alerted (highest state, last state): " + "; ".join(paths))
 
 
 if __name__ == "__main__":

@@ -99,24 +99,46 @@ def test_tracking_acceptance_on_oracle_passages(scenario: Any, oracle_out: list[
         assert len(p) == len(set(p)), p
 
 
+def _never_reached(sc: Any) -> list[tuple[str, str, str]]:
+    """(front id, site, local day) of every site a scenario front never reaches."""
+    return [(f["id"], site, f["origin_time"][:10]) for f in sc.fronts
+            for site, t in f["site_arrivals"].items() if t is None]
+
+
 @pytest.mark.xfail(strict=True, reason=(
-    "known shortfall: on the stall day the front stops 19.4 km inland, just short of "
-    "lanternfield-green, which has no station of its own; the last station before it (19.1 km) "
-    "reports after the site's ETA, so the site is alerted and 'arrived' is estimated"))
+    "known shortfall, and not one to close by honest means on this case: on the stall day the front "
+    "stops 19.4 km inland, about 0.1 km short of lanternfield-green (the front line's own lobes are up "
+    "to 1 km), which has no station; the station closest to it along the front's motion is 0.4 km "
+    "short of it (25 km away along the front line) and reports late, the next ones lie 5 km beyond. Nothing observable before the stall says the front "
+    "will stop there, so the site is warned (approaching, then imminent) and the alert is cancelled "
+    "once the stations beyond stay silent: see the test below for what is checked instead"))
 def test_no_alert_for_a_site_never_reached(scenario: Any, oracle_out: list[dict[str, Any]]) -> None:
-    out = oracle_out
-    alerts = [o for o in out if o["type"] == "alert"]
-    for f in scenario.fronts:
-        for site, t in f["site_arrivals"].items():
-            if t is None:
-                day = f["origin_time"][:10]
-                assert not [a for a in alerts if a["site"] == site and a["issued_at"][:10] == day
-                            and a["state"] in ("approaching", "imminent", "arrived")], (f["id"], site)
+    alerts = [o for o in oracle_out if o["type"] == "alert"]
+    for fid, site, day in _never_reached(scenario):
+        assert not [a for a in alerts if a["site"] == site and a["issued_at"][:10] == day
+                    and a["state"] in ("approaching", "imminent", "arrived")], (fid, site)
+
+
+def test_never_reached_site_is_not_called_arrived_and_its_alert_is_cancelled(
+        scenario: Any, oracle_out: list[dict[str, Any]]) -> None:
+    """A site the front never reaches is never told the front arrived (no 'arrived' forecast, no
+    'arrived' or 'clear' alert), its last forecast of the day says 'not expected', and an alert
+    opened for it ends 'cancelled' the same day."""
+    cases = _never_reached(scenario)
+    assert cases, "the scenario has a stall day with a site the front does not reach"
+    for fid, site, day in cases:
+        mine = [o for o in oracle_out if o.get("site") == site and o["issued_at"][:10] == day]
+        fcs = [o for o in mine if o["type"] == "forecast"]
+        alerts = [o for o in mine if o["type"] == "alert"]
+        assert not [o for o in fcs if o["status"] == "arrived"], (fid, site)
+        assert not [a for a in alerts if a["state"] in ("arrived", "clear")], (fid, site)
+        assert fcs and fcs[-1]["status"] == "not_expected", (fid, site, fcs[-1:])
+        assert not alerts or alerts[-1]["state"] == "cancelled", (fid, site, [a["state"] for a in alerts])
 
 
 @pytest.mark.xfail(strict=True, reason=(
-    "known shortfall on this sparse 12-station network: only 2 fitted forecasts come before a "
-    "downstream site's arrival, median error 5.2 min; prior-based ones (1-2 stations) 36 min"))
+    "known shortfall on this sparse 12-station network: only 3 fitted forecasts come before a "
+    "downstream site's arrival, median error 5.2 min; prior-based ones (1-2 stations) 24.6 min"))
 def test_eta_errors_reported(scenario: Any, oracle_out: list[dict[str, Any]]) -> None:
     """The ETA figures of issue 4 on this scenario (sites >= 20 min downstream of the first station):
     the first forecast comes >= 15 min ahead; the error of the forecasts from fitted fronts (>= 3

@@ -20,6 +20,10 @@ from dataclasses import dataclass
 
 from ..config import DetectorSettings
 
+# Minutes a weak breeze-front candidate must persist before it is called (a cloud shadow's dip lasts
+# some 10 to 40 minutes, common practice; 10 keeps the delay of the few weak calls moderate).
+WEAK_PERSIST_MIN = 10.0
+
 
 @dataclass(frozen=True, slots=True)
 class Signature:
@@ -162,16 +166,41 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # Where the large-scale wind already blew from the water (a bay's far side), the front shows in
     # the air alone: then a strong, simultaneous cooling and moistening under an onshore wind will do.
     marine_air_only = onshore_after and settled and sig_t and sig_d and marine >= 2.0 * s.breeze_min_marine_index_c
-    wind_ok = (came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))) \
-        or marine_air_only
+    # Where the vane cannot be read (its wind is missing, or a vane that reports the very same bearing
+    # minute after minute while the cups turn: stuck, Zahumensky 2004), the air must say it alone,
+    # as strongly as under an already-onshore wind. Not for a running mean, which is steady anyway.
+    wind_missing = sig.speed_after != sig.speed_after
+    vane_frozen = averaging <= 1 and sig.spread_after == 0.0 and not calm_after
+    air_only = (wind_missing or vane_frozen) and sig_t and sig_d and marine >= 2.0 * s.breeze_min_marine_index_c
+    wind_turned = came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))
+    # Against an opposing offshore wind, the front first halts it: just behind the front the wind may
+    # turn alongshore and carry little onshore flow yet. A clear turn out of the offshore half that adds
+    # >= 2 m/s of onshore flow at a speed that has not slackened (a slackening offshore wind keeps its
+    # bearing) is that, but it too is a weak call that the network must confirm (corroborate.py). Not
+    # for a running-mean vane: just behind the front its reading is a blend of the old and new wind.
+    halted_offshore = averaging <= 1 and came_onshore and not calm_after and sig.before_offset_deg > 90.0 and \
+        sig.before_offset_deg - sig.after_offset_deg >= 60.0 and sig.after_offset_deg <= 90.0 and \
+        sig.z_onshore >= 4.0 and _nz(sig.onshore_after) - _nz(sig.onshore_before) >= 2.0 and \
+        sig.speed_after >= 1.5 and settled
+    wind_ok = wind_turned or marine_air_only or air_only or halted_offshore
+    # A call on less than a clear turn and clearly marine air is weak: corroborate.py recognises it
+    # by the same marks in the event and asks the network. Its evidence counts half, so that a clear
+    # front soon after is not taken for the same regime going on.
+    weak = not ((wind_turned or marine_air_only) and thermal)
     failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
                                     ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence), ("dry", dry)) if not ok]
     if not failed and convective and can_wait:
         return Decision(None, 0.0, True, evidence, "breeze front? convective signs: waiting for a gust front")
+    if not failed and weak and can_wait and sig.minutes_after < WEAK_PERSIST_MIN:
+        # A weak call waits until the change has persisted: by then a clear signature may have formed
+        # (a strong call instead, which a hasty weak one would have blocked), or a passing cloud's
+        # cooling begun to recover.
+        return Decision(None, 0.0, True, evidence, "breeze front? weak: waiting for it to persist")
     if not failed:
         margin = marine / s.breeze_min_marine_index_c + (halfwidth - sig.after_offset_deg) / halfwidth \
             + evidence / s.breeze_min_evidence
-        return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 2.0))), False, evidence)
+        return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 2.0))), False,
+                        0.5 * evidence if weak else evidence, "weak: needs the network" if weak else "")
     note = "breeze front? not " + ", ".join(failed)
     # Waiting costs a full evaluation a minute, so wait only while the wind is moving onshore
     # (or is a running mean that lags): a thermal change alone, like a cloud shadow, is not a front.

@@ -11,7 +11,7 @@ import math
 import numpy as np
 import pytest
 
-from frontwatch.network.fit import ONSET_SIGMA_S, Prior, fit_front
+from frontwatch.network.fit import LINE_ROUGH_M, ONSET_SIGMA_S, PRIOR_DOF, Prior, fit_front
 from frontwatch.network.prior import DEPTH_M, EARLY_FACTOR, FROUDE_K, PassageFacts, density_prior
 
 
@@ -51,8 +51,11 @@ def test_overdetermined_fit_matches_numpy_lstsq() -> None:
     assert f.arrival(0.0, 0.0)[0] == pytest.approx(beta[0], abs=1e-6)
     resid = t - a @ beta
     assert f.residual_rms_s == pytest.approx(math.sqrt(float(resid @ resid) / 7), rel=1e-9)
-    # Covariance: sigma^2 (A^T A)^-1 with sigma^2 = RSS/(n-3) floored at the onset sd.
-    sigma2 = max(float(resid @ resid) / 4, ONSET_SIGMA_S**2)
+    # Covariance: sigma^2 (A^T A)^-1 with sigma^2 the residuals' RSS over n - 3 = 4 degrees of
+    # freedom pooled with PRIOR_DOF of the expected error (onset sd and the front line's roughness
+    # over the speed, LINE_ROUGH_M x |s|), never below the onset sd.
+    expected = ONSET_SIGMA_S**2 + (LINE_ROUGH_M * math.hypot(beta[1], beta[2])) ** 2
+    sigma2 = max((float(resid @ resid) + PRIOR_DOF * expected) / (4 + PRIOR_DOF), ONSET_SIGMA_S**2)
     ac = np.column_stack([np.ones(7), xy - xy.mean(axis=0)])
     cov = sigma2 * np.linalg.inv(ac.T @ ac)
     assert np.allclose(np.array(f.cov)[1:, 1:], cov[1:, 1:], rtol=1e-9)
@@ -84,7 +87,9 @@ def test_single_station_prior_prediction() -> None:
     assert f is not None and f.used_prior
     t, sd = f.arrival(-8000.0, 0.0)  # 8 km west: 2000 s later at 4 m/s
     assert t == pytest.approx(3000.0, abs=1e-6)
-    assert sd == pytest.approx(math.hypot(ONSET_SIGMA_S, 0.5 * 2000.0), rel=1e-3)  # wide: 50 % of the lead
+    # Wide: the onset's sd and the line's roughness at 4 m/s (LINE_ROUGH_M / 4 s), and 50 % of the
+    # 2000 s lead from the prior's speed sd.
+    assert sd == pytest.approx(math.hypot(ONSET_SIGMA_S, LINE_ROUGH_M / 4.0, 0.5 * 2000.0), rel=1e-3)
 
 
 def test_density_prior_matches_domain_check_value() -> None:
@@ -120,17 +125,20 @@ def test_accelerated_eta_hand_worked() -> None:
 
 
 def test_fitted_acceleration_term() -> None:
-    """Seven stations on a front moving east whose arrival time is t = q / 2 - 2e-6 q^2 (q metres
+    """Nine stations on a front moving east whose arrival time is t = q / 2 - 2e-6 q^2 (q metres
     east): it speeds up. The fit finds the quadratic term, reports the speed at the furthest station
-    (1 / (0.5 - 4e-6 q_max)) and continues beyond it at that speed (no further speed-up assumed)."""
+    (1 / (0.5 - 4e-6 q_max)) and continues beyond it at that speed (no further speed-up assumed).
+    Nine, not fewer: a front line may bend by LINE_ROUGH_M, and with few stations a bend and a
+    speed-up look alike (the expected error, not these near-perfect residuals, sets the sd)."""
     pts = []
-    for i, (x, y) in enumerate([(0, 0), (5000, 3000), (10000, -2000), (15000, 4000), (20000, -1000),
-                                (25000, 2500), (30000, -3000)]):
+    ys = [3000, -2000, 2500, -3000, 1000]
+    for i in range(9):
+        x = 30000.0 * i / 8
         t = x / 2.0 - 2e-6 * x * x + (30.0 if i % 2 else -30.0)
-        pts.append((float(x), float(y), t))
+        pts.append((x, float(ys[i % 5]), t))
     f = fit_front(pts)
     assert f is not None and f.curv != 0.0
-    assert f.curv == pytest.approx(-2e-6, rel=0.05)
+    assert f.curv == pytest.approx(-2e-6, rel=0.10)
     assert f.speed_ms == pytest.approx(1.0 / (0.5 - 4e-6 * 30000.0), rel=0.05)
     assert f.heading_deg == pytest.approx(90.0, abs=3.0)
     t_end, _ = f.arrival(30000.0, 0.0)
@@ -151,7 +159,8 @@ def test_two_stations_give_the_speed_along_the_prior_heading() -> None:
     assert f is not None and f.used_prior
     assert f.speed_ms == pytest.approx(3.0, rel=0.10)
     assert abs(f.heading_deg - 270.0) <= 5.0
-    # Straight along the heading the data decide alone.
+    # Straight along the heading the data decide nearly alone (the front line's roughness, 1 km
+    # against 6 km of separation, leaves the prior a few percent).
     g = fit_front([(0.0, 0.0, 0.0), (-6000.0, 0.0, 2000.0)], Prior(1.0, 270.0, 0.7, 20.0))
     assert g is not None
-    assert g.speed_ms == pytest.approx(3.0, rel=0.01) and g.heading_deg == pytest.approx(270.0, abs=0.1)
+    assert g.speed_ms == pytest.approx(3.0, rel=0.05) and g.heading_deg == pytest.approx(270.0, abs=0.1)

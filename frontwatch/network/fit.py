@@ -20,8 +20,14 @@ from dataclasses import dataclass
 import numpy as np
 
 # Uncertainty of one detected onset time, s (the detector's change point is good to a few
-# minutes; common practice, no source). Used as a floor on the residual standard deviation.
+# minutes; common practice, no source). With LINE_ROUGH_M below, a floor on the residual sd.
 ONSET_SIGMA_S = 120.0
+# The front line is not straight: it bends with the coast and the land, and its head breaks into
+# lobes and clefts, so a station sees it up to about this far (m) ahead of or behind a straight line
+# through the others (from memory: hundreds of metres to a kilometre over a network). Divided by the
+# speed it is a timing error of its own, added to the onset's: ROUGH_M * slowness.
+LINE_ROUGH_M = 1000.0
+PRIOR_DOF = 2.0  # weight of that expected error against the fit's residuals (see _residual_var)
 # Stations whose positions span less than this fraction across their main axis are "on a line":
 # the heading is not determined by them alone and the prior is kept.
 MIN_SPREAD_RATIO = 0.15
@@ -146,6 +152,18 @@ class FrontFit:
         return math.sqrt(max(v_speed, 0.0)), math.degrees(math.sqrt(max(v_head, 0.0)))
 
 
+def _residual_var(rss: float, dof: int, onset_sigma_s: float, slowness: float) -> float:
+    """Variance (s^2) of one arrival time about the fitted front.
+
+    The expected value, onset sd and line roughness (LINE_ROUGH_M x slowness) combined, counts as
+    PRIOR_DOF residuals pooled with the fit's own (a scaled inverse chi-square prior on the
+    variance, e.g. Gelman et al., Bayesian Data Analysis, ch. 3): with few degrees of freedom it
+    rules, with many the residuals do; never below the onset sd alone."""
+    expected = onset_sigma_s**2 + (LINE_ROUGH_M * slowness) ** 2
+    pooled = (rss + PRIOR_DOF * expected) / (max(dof, 0) + PRIOR_DOF)
+    return max(pooled, onset_sigma_s**2)
+
+
 def _well_determined(sx: float, sy: float, cov: np.ndarray) -> bool:
     """True when the slowness is known to MAX_REL_SLOWNESS_SD and its direction to MAX_HEADING_SD_DEG."""
     s2 = sx * sx + sy * sy
@@ -197,7 +215,7 @@ def fit_front(
         resid = b - a @ beta
         dof = n - 3
         rss = float(resid @ resid)
-        sigma2 = max(rss / dof if dof > 0 else 0.0, onset_sigma_s**2)
+        sigma2 = _residual_var(rss, dof, onset_sigma_s, math.hypot(float(beta[1]), float(beta[2])))
         cov = sigma2 * np.linalg.inv(ata)
         if prior is not None and not _well_determined(float(beta[1]), float(beta[2]), cov):
             use_prior = True  # e.g. stations the front reached almost together: lean on the prior
@@ -241,9 +259,9 @@ def _fit_with_prior(a: np.ndarray, b: np.ndarray, prior: Prior,
     sd_along = prior.speed_rel_sd * s0
     rot = np.column_stack([u, w])
     mean = np.array([0.0, *(s0 * u)])
-    sig2 = onset_sigma_s**2
     s_along = s0
     for _ in range(PRIOR_PASSES):
+        sig2 = onset_sigma_s**2 + (LINE_ROUGH_M * max(s_along, MIN_SLOWNESS)) ** 2
         sd_across = math.tan(math.radians(prior.heading_sd_deg)) * max(s_along, MIN_SLOWNESS)
         p_cov = rot @ np.diag([sd_along**2, sd_across**2]) @ rot.T
         prec = np.zeros((3, 3))
@@ -289,7 +307,7 @@ def _fit_curved(arr: np.ndarray, ref: np.ndarray, tref: float, beta: np.ndarray,
     resid = b - a @ bet
     rss = float(resid @ resid)
     dof = n - 4
-    sigma2 = max(rss / dof if dof > 0 else 0.0, onset_sigma_s**2)
+    sigma2 = _residual_var(rss, dof, onset_sigma_s, s)
     cov = sigma2 * inv / np.outer(scale, scale)
     c = float(bet[3])
     se_c = math.sqrt(max(cov[3, 3], 0.0))

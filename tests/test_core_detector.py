@@ -94,3 +94,99 @@ def test_clone_is_independent():
     for o in obs[:400]:
         proto.update(o)
     assert len(other.ring) == 0
+
+
+# ---------------------------------------------------------------- weak calls and the network
+# A weak breeze-front call (classify.py: the air alone where the vane is missing or frozen, or a
+# halted offshore wind with little onshore flow yet) waits to persist and then needs a front seen
+# nearer the water at a speed a density current could have (corroborate.py).
+
+from frontwatch.config import parse_network  # noqa: E402
+from frontwatch.detect.classify import WEAK_PERSIST_MIN, Signature, classify  # noqa: E402
+from frontwatch.detect.corroborate import Corroborator  # noqa: E402
+
+NAN = float("nan")
+
+
+def _sig(**kw):
+    """A daytime signature with clear marine air (T -1.5, Td +1.2 beyond the noise), no convection."""
+    base = dict(strength=12.0, minutes_after=12.0, local_hour=14.0, dir_before=NAN, dir_after=NAN,
+                speed_before=NAN, speed_after=NAN, spread_after=180.0, turn_deg=NAN, onshore_before=NAN,
+                onshore_after=NAN, after_offset_deg=NAN, change_offset_deg=180.0, change_speed=0.0,
+                before_offset_deg=180.0, z_temp=-12.0, z_dewpoint=8.0, z_onshore=0.0, temp_change=-1.5,
+                temp_rate=-0.05, dewpoint_change=1.2, pressure_change=0.1, pressure_jump=0.2,
+                gust_after=NAN, rain_after=0.0, depression_after=8.0, change_times_min=(0.0, 1.0, 0.0))
+    base.update(kw)
+    return Signature(**base)
+
+
+def test_missing_wind_marine_air_is_a_weak_call_after_persisting():
+    s = config().detector
+    early = classify(_sig(minutes_after=WEAK_PERSIST_MIN - 4), s, 70.0, can_wait=True)
+    assert early.kind is None and early.wait  # not yet: it must persist
+    late = classify(_sig(), s, 70.0, can_wait=True)
+    assert late.kind == "breeze_front" and late.note.startswith("weak")
+
+
+def test_missing_wind_cooling_alone_is_no_breeze_front():
+    # A cloud shadow cools without moistening (DOMAIN.md section 3): with no wind to read, no call.
+    s = config().detector
+    d = classify(_sig(dewpoint_change=0.05, z_dewpoint=0.3), s, 70.0, can_wait=False)
+    assert d.kind != "breeze_front"
+
+
+def test_halted_offshore_wind_is_weak_and_slackening_is_not():
+    s = config().detector
+    # Offshore 3 m/s (from the land, 180 deg off the onshore bearing) turned alongshore at 2.5 m/s:
+    # the onshore component rose from -3 to +0.4 m/s.
+    halted = _sig(dir_before=0.0, dir_after=99.0, speed_before=3.0, speed_after=2.5, spread_after=15.0,
+                  turn_deg=99.0, onshore_before=-3.0, onshore_after=0.4, before_offset_deg=180.0,
+                  after_offset_deg=81.0, change_offset_deg=40.0, change_speed=4.0, z_onshore=9.0)
+    d = classify(halted, s, 70.0, can_wait=False)
+    assert d.kind == "breeze_front" and d.note.startswith("weak")
+    # The same offshore wind merely slackening (same bearing, 0.5 m/s) adds 'onshore' flow too: no call.
+    slack = _sig(dir_before=0.0, dir_after=0.0, speed_before=3.0, speed_after=0.5, spread_after=15.0,
+                 turn_deg=0.0, onshore_before=-3.0, onshore_after=-0.5, before_offset_deg=180.0,
+                 after_offset_deg=180.0, change_offset_deg=0.0, change_speed=2.5, z_onshore=9.0)
+    assert classify(slack, s, 70.0, can_wait=False).kind != "breeze_front"
+
+
+def _two_stations():
+    # B lies 14 km inland (north) of A; the sea is to the south (onshore wind from 180 deg).
+    # 14 km = 0.12590 deg of latitude (1 deg = 111.195 km on the mean-radius sphere).
+    return parse_network({"network": {"name": "pair", "utc_offset_hours": 0},
+                          "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0},
+                                       {"id": "B", "lat": 40.12590, "lon": 0.0, "onshore_from_deg": 180.0}]})
+
+
+def _front(station, onset, weak):
+    # weak: no wind after (an air-only call); strong: 3 m/s from the onshore bearing after a turn
+    return PassageEvent(station=station, kind="breeze_front", onset=onset, detected_at=onset + 300,
+                        confidence=0.8, wind_dir_before_deg=0.0, wind_dir_after_deg=None if weak else 180.0,
+                        speed_change_ms=None, temp_change_c=-1.5, dewpoint_change_c=1.2, pressure_change_hpa=None,
+                        speed_after_ms=None if weak else 3.0)
+
+
+@pytest.mark.parametrize(("minutes", "kept"), [
+    (14000 / 7.0 / 60, True),  # at DOMAIN.md's density-current check value, sqrt(g'h) = 7.00 m/s
+    (14000 / 1.4 / 60, True),  # at the mean lake-breeze front speed, 1.4 m/s (Keeler & Kristovich 2012)
+    (10.0, False),  # 23 m/s: no density current moves so fast
+    (-5.0, False),  # before the front reached the shore station
+])
+def test_weak_inland_call_needs_a_front_travelling_from_the_water(minutes, kept):
+    cor = Corroborator(_two_stations())
+    assert cor.coastal == {"A": True, "B": False}
+    t0 = 1767268800.0
+    cor.check(_front("A", t0, weak=False))
+    out = cor.check(_front("B", t0 + minutes * 60.0, weak=True))
+    assert (out.kind == "breeze_front") == kept, out.note
+    if not kept:
+        assert out.kind == "wind_shift" and out.note and "weak" in out.note
+
+
+def test_unconfirmed_weak_call_marks_nothing_seen():
+    cor = Corroborator(_two_stations())
+    t0 = 1767268800.0
+    assert cor.check(_front("A", t0, weak=True)).kind == "wind_shift"  # nobody else saw one
+    # A's demoted weak call does not vouch for B's strong one a little later.
+    assert cor.check(_front("B", t0 + 1800, weak=False)).kind == "wind_shift"

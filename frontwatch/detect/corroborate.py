@@ -9,13 +9,14 @@ a breeze-like change (accepted or not) within the last `hours`; otherwise it is 
 `wind_shift` with a note, since the signature alone did not convince the network. The first inland
 call after a missed coastal passage is the only one lost: it still counts as 'seen' for the others.
 
-A *weak* call (the classifier accepted a signature below what stands on its own: marine air whose
-moisture rise is lost in the dewpoint sensor's wander, or a wind that has turned out of the offshore
-half but carries under 1 m/s of onshore flow yet; see classify.py) needs more: a station on the same
-shore, nearer the water, called a breeze front before it, at a time a density current could have
-taken to come this far (implied speed between MIN_FRONT_MS and MAX_FRONT_MS). A weak call is never
-a coastal one, and an unconfirmed weak call marks nothing as seen. A single-station network is
-unaffected. Pure and deterministic; state is one time per station.
+A *weak* call (the classifier accepted a signature below what stands on its own: the air alone
+where the vane is missing or stuck, a wind that has turned out of the offshore half but carries
+under 1 m/s of onshore flow yet, or inland an already-onshore wind where only the air changed; see
+classify.py) needs more. Inland: the latest front among the stations nearer the water on the same
+shore came before it, at a time a density current could have taken to come this far (implied speed
+between MIN_FRONT_MS and MAX_FRONT_MS). At the shore: any other station's front within `hours`.
+An unconfirmed weak call marks nothing as seen; in a single-station network it is never confirmed
+(strong calls there are unaffected). Pure and deterministic; state is one time per station.
 """
 
 from __future__ import annotations
@@ -42,8 +43,8 @@ WEAK_ONSHORE_MS = 1.0  # onshore flow below which a breeze front's wind alone is
 def is_weak(ev: PassageEvent, onshore_from_deg: float, halfwidth_deg: float, s: DetectorSettings,
             coastal: bool = False) -> bool:
     """True when a breeze-front event's signature is below what stands on its own. The classifier's
-    paths that accept less (classify.py) leave these marks in the event: a moisture rise lost in the
-    noise ('weak_air'); under 1 m/s of onshore flow ('halted_offshore'); no usable wind after
+    paths that accept less (classify.py) leave these marks in the event: under 1 m/s of onshore flow
+    ('halted_offshore', or 'air_only' under a stuck vane); no usable wind after
     ('air_only'); inland, a wind already onshore before, so the air alone told ('marine_air_only': at
     the shore, where the large-scale wind already blew from the water, that stands on its own)."""
     if ev.wind_dir_after_deg is None or ev.speed_after_ms is None:

@@ -190,3 +190,17 @@ def test_unconfirmed_weak_call_marks_nothing_seen():
     assert cor.check(_front("A", t0, weak=True)).kind == "wind_shift"  # nobody else saw one
     # A's demoted weak call does not vouch for B's strong one a little later.
     assert cor.check(_front("B", t0 + 1800, weak=False)).kind == "wind_shift"
+
+
+def test_weak_channel_change_time_gets_a_wider_allowance():
+    # Onshore turn and cooling at the onset; the dewpoint's own best split 9 minutes earlier. A
+    # moisture rise barely beyond the noise (z = 3) cannot be timed that closely (the change-point
+    # scatter grows as 1/z^2, Hinkley 1970): coherent. A clear one (z = 8) 9 minutes off is not.
+    s = config().detector
+    turn = dict(dir_before=0.0, dir_after=180.0, speed_before=3.0, speed_after=3.0, spread_after=10.0,
+                turn_deg=180.0, onshore_before=-3.0, onshore_after=3.0, before_offset_deg=180.0,
+                after_offset_deg=0.0, change_offset_deg=0.0, change_speed=6.0, z_onshore=10.0)
+    weak_td = classify(_sig(z_dewpoint=3.0, change_times_min=(0.0, -9.0, 0.0), **turn), s, 70.0, can_wait=False)
+    assert weak_td.kind == "breeze_front"
+    clear_td = classify(_sig(z_dewpoint=8.0, change_times_min=(0.0, -9.0, 0.0), **turn), s, 70.0, can_wait=False)
+    assert clear_td.kind == "wind_shift"  # a clear turn of a sustained wind, but not one front

@@ -23,6 +23,9 @@ from ..config import DetectorSettings
 # Minutes a weak breeze-front candidate must persist before it is called (a cloud shadow's dip lasts
 # some 10 to 40 minutes, common practice; 10 keeps the delay of the few weak calls moderate).
 WEAK_PERSIST_MIN = 10.0
+# Change strength (noise units) from which a channel's own change time is trusted to within
+# coherence_min; weaker changes get a wider allowance (see the coherence test).
+TIMED_Z = 5.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -156,12 +159,19 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     sig_d = (not dry_measure) and sig.z_dewpoint >= 2.0
     coherent = sig_t or sig_d
     if coherent and len(times) == 3:
-        lag = s.coherence_min + 0.5 * max(0, averaging - 1)
-        ts = [times[i] for i, ok in ((0, sig_t), (1, sig_d)) if ok]
+        # A change barely beyond the noise cannot be timed closely: the change-point estimate of a
+        # mean shift scatters in proportion to (sigma/delta)^2, i.e. to 1/z^2 for a given window
+        # (Hinkley 1970, Biometrika 57). Each channel's allowance widens by (TIMED_Z / |z|)^2 below
+        # TIMED_Z, the strength from which a change is taken as timed to within coherence_min.
+        def allow(z: float) -> float:
+            return s.coherence_min * max(1.0, (TIMED_Z / max(abs(z), 1e-9)) ** 2)
+        lag = 0.5 * max(0, averaging - 1)
+        zs = (sig.z_temp, sig.z_dewpoint, sig.z_onshore)
+        idx = [i for i, ok in ((0, sig_t), (1, sig_d)) if ok]
         if sig.z_onshore >= 2.0:
-            coherent = all(abs(times[2] - x) <= lag for x in ts)
-        if coherent and len(ts) == 2:
-            coherent = abs(ts[0] - ts[1]) <= s.coherence_min
+            coherent = all(abs(times[2] - times[i]) <= max(allow(zs[2]), allow(zs[i])) + lag for i in idx)
+        if coherent and len(idx) == 2:
+            coherent = abs(times[0] - times[1]) <= max(allow(zs[0]), allow(zs[1]))
     dry = rain < 0.2  # rain at the change means convection, not a breeze front (DOMAIN.md section 3)
     # Where the large-scale wind already blew from the water (a bay's far side), the front shows in
     # the air alone: then a strong, simultaneous cooling and moistening under an onshore wind will do.

@@ -6,8 +6,13 @@ For each seed: generate a scenario (frontwatch.sim), run the whole core on its o
 all seeds:
 - front speed and heading error at the first forecast with >= 3 stations (basis 'fit'), against the
   true mean speed over the span those stations saw (and the true speed at that moment);
-- ETA error of every forecast issued before the true arrival, for sites >= 20 min downstream of the
-  first station that detected the front; the first forecast's lead time;
+- ETA error for sites >= 20 min downstream of the first station that detected the front, in the
+  forms issue 4's wording allows (its "median absolute arrival-time error ... with the first
+  forecast issued >= 15 minutes before arrival" does not say which forecasts; the headline here is
+  the strictest: every forecast issued before the true arrival, pooled): also by basis and by the
+  number of stations fitted (1, 2, 3+), signed (bias), per (site, front) the first forecast's error
+  and the error of the forecast in force 60, 45, 30 and 15 min before arrival; the first forecast's
+  lead time; and what withholding one-station forecasts would give (error and lead);
 - alerts for sites the front never reached (should be none) and alert state changes per front
   and site, with reversals (imminent -> approaching) counted as flaps.
 

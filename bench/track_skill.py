@@ -143,9 +143,9 @@ def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
         w = SiteWatch(cfg)
         outputs = []
         records = 0
-        for o in observations(dec):
+        for ob in observations(dec):
             records += 1
-            outputs.extend(w.observe(o, evs.get((o.station, o.time))))
+            outputs.extend(w.observe(ob, evs.get((ob.station, ob.time))))
     elapsed = time.perf_counter() - t0
     outs = [o.to_dict() for o in outputs]
     fcs = [o for o in outs if o.get("type") == "forecast"]
@@ -286,9 +286,9 @@ def report(a: argparse.Namespace, mode: str) -> None:
         r = run_seed(s, a.days, a.stations, mode)
         allr.append(r)
         se = ", ".join(f"{x:+.0%}/{y:+.0%}" for x, y in r["speed_err"])
-        he = ", ".join(f"{x:+.0f}" for x in r["head_err"])
+        hs = ", ".join(f"{x:+.0f}" for x in r["head_err"])
         ae = [abs(x) for x in r["eta_err"]]
-        print(f"{s:4d} {r['fronts']:6d} {r['tracked']:7d} | {se or '-'} | {he or '-'} | "
+        print(f"{s:4d} {r['fronts']:6d} {r['tracked']:7d} | {se or '-'} | {hs or '-'} | "
               f"{_med(ae):.1f}, {len(ae)} | {_med(r['first_lead']):.0f} (min {min(r['first_lead'], default=0):.0f}) | "
               f"{r['never_alerts']}/{r['never_cases']} | {r['flaps']} {r['max_changes']} | "
               f"{r['records'] / r['seconds']:.0f}")

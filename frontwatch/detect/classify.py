@@ -180,7 +180,7 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # minute after minute while the cups turn: stuck, Zahumensky 2004), the air must say it alone,
     # as strongly as under an already-onshore wind. Not for a running mean, which is steady anyway.
     wind_missing = sig.speed_after != sig.speed_after
-    vane_frozen = averaging <= 1 and sig.spread_after == 0.0 and not calm_after
+    vane_frozen = averaging <= 1 and sig.spread_after < 0.5 and not calm_after  # same bearing to within 1 deg
     air_only = (wind_missing or vane_frozen) and sig_t and sig_d and marine >= 2.0 * s.breeze_min_marine_index_c
     wind_turned = came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))
     # Against an opposing offshore wind, the front first halts it: just behind the front the wind may

@@ -8,10 +8,12 @@ import contextlib
 import random
 import socket
 import ssl
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
 import aiomqtt
+import paho.mqtt.client as paho
 from paho.mqtt.packettypes import PacketTypes
 from paho.mqtt.properties import Properties
 
@@ -79,16 +81,98 @@ def make_client(settings: ServiceSettings, *, client_id: str | None, persistent:
     return client
 
 
+def receive_into(client: aiomqtt.Client, on_message: Callable[[Any, Any, Any], None]) -> None:
+    """Hand each incoming message to `on_message(paho_client, userdata, paho_message)` directly.
+
+    aiomqtt's `messages` iterator wraps every message in its own object, a queue entry and an
+    awaited task, which costs about as much as everything else the receive path does; the service
+    takes messages straight from paho's callback instead (on the event loop's thread, inside
+    paho's socket read). The iterator then only serves to notice a lost connection."""
+    client._client.on_message = on_message
+
+
+class BurstReader:
+    """Reads up to `burst` packets per socket wake-up instead of paho's one, and can pause reading.
+
+    Install once connected (it replaces aiomqtt's one-packet reader on the socket). `arrived()`
+    counts messages taken so far: a wake-up stops reading as soon as a read brought none (the socket
+    is drained, or it was another kind of packet). `full()` true pauses reading (the broker then
+    holds what we have not read, as TCP backpressure) until `resume()`; keep pauses short (the
+    keep-alive answer is read by the same reader)."""
+
+    def __init__(self, client: aiomqtt.Client, arrived: Callable[[], int], full: Callable[[], bool],
+                 burst: int = 64) -> None:
+        self.client = client
+        self.arrived = arrived
+        self.full = full
+        self.burst = burst
+        self.paused = False
+        self.pauses = 0
+        pc = client._client
+        sock = pc.socket()
+        self.fd = sock.fileno() if sock is not None else -1
+        self._pending = getattr(sock, "pending", None)  # TLS: bytes decrypted but not read yet
+        if self.fd >= 0:
+            client._loop.add_reader(self.fd, self._read)
+
+    def _read(self) -> None:
+        pc = self.client._client
+        arrived, pending = self.arrived, self._pending
+        try:
+            for _ in range(self.burst):
+                if self.full():
+                    self.paused = True
+                    self.pauses += 1
+                    self.client._loop.remove_reader(self.fd)
+                    return
+                n = arrived()
+                if pc.loop_read() != paho.MQTT_ERR_SUCCESS:
+                    return
+                if arrived() == n and not (pending is not None and pending() > 0):
+                    return
+        except Exception as exc:  # as aiomqtt's own reader: a broken socket ends the connection
+            fut = self.client._disconnected
+            if not fut.done():
+                fut.set_exception(exc)
+
+    def resume(self) -> None:
+        if self.paused and pc_open(self.client):
+            self.paused = False
+            self.client._loop.add_reader(self.fd, self._read)
+
+
+def pc_open(client: aiomqtt.Client) -> bool:
+    """True while paho still has the socket (after a disconnect the reader must not come back)."""
+    sock = client._client.socket()
+    return sock is not None and sock.fileno() >= 0
+
+
 def ack(client: aiomqtt.Client, mid: int, qos: int) -> None:
     """Acknowledge one message received with manual acknowledgement."""
     if qos > 0:
         client._client.ack(mid, qos)
 
 
+_CORK = getattr(socket, "TCP_CORK", None)  # Linux
+
+
 def flush_writes(client: aiomqtt.Client) -> None:
-    """Write queued packets (our acks) now instead of on the next loop turn."""
+    """Write queued packets (our acks) now instead of on the next loop turn, as few TCP segments.
+
+    paho writes each packet with its own send(); with TCP_NODELAY each would be its own segment,
+    and on loopback the broker's side of every segment is processed inside our send(). Corking
+    the socket for the loop makes a chunk's acknowledgements one segment (sent at the uncork)."""
+    pc = client._client
+    sock = pc.socket()
+    cork = _CORK is not None and sock is not None and len(pc._out_packet) > 1
     with contextlib.suppress(Exception):  # a dying connection: the broker will redeliver
-        client._client.loop_write()
+        if cork:
+            sock.setsockopt(socket.IPPROTO_TCP, _CORK, 1)  # type: ignore[union-attr, arg-type]
+        try:
+            pc.loop_write()
+        finally:
+            if cork:
+                sock.setsockopt(socket.IPPROTO_TCP, _CORK, 0)  # type: ignore[union-attr, arg-type]
 
 
 def station_of(topic: str, obs_prefix: str) -> str | None:

@@ -33,18 +33,21 @@ from ..events import PassageEvent
 from ..obs import Observation, decode_payload
 from .hub import DashboardHub
 from .metrics import ServiceMetrics
-from .mqtt import Backoff, ack, flush_writes, make_client, station_of
+from .mqtt import Backoff, BurstReader, ack, flush_writes, make_client, receive_into, station_of
 from .settings import ServiceSettings
 from .store import Store, output_key
 from .web import make_app
 
 log = logging.getLogger("frontwatch.service")
 
-MAX_BATCH = 2000  # messages per consumer batch (one transaction)
-GATHER_TURNS = 64  # loop turns the consumer waits for a batch to fill while messages keep coming
 ACK_EVERY = 10  # commit and acknowledge at least this often: half Mosquitto's in-flight window of 20,
-GATHER_MAX = 10  # so the broker keeps sending the other half while the core works on a batch
+CHUNK = 10  # so the broker keeps sending the other half while the core works on a chunk
 COMMIT_EVERY_S = 0.005  # ... or this long after the oldest unacknowledged message
+WINDOW = 20  # Mosquitto's default max_inflight_messages: QoS 1 messages it sends ahead of our acks
+BIG_CHUNK = 200  # messages in one batch when more than WINDOW wait
+BIG_CHUNK_BYTES = 256_000  # ... or this much payload (gateway arrays: about 1,200 records)
+READ_BURST = 64  # packets read from the socket per wake-up (paho reads one per call)
+READ_AHEAD = 400  # messages waiting in the inbox before reading pauses
 
 
 @dataclass(slots=True)
@@ -83,6 +86,7 @@ class Service:
         self.gateways = set(config.network.gateways)
         self.store = Store(settings.db_path if settings.db_path is not None else ":memory:")
         self.engine = Engine(config)
+        self._naive_tz = config.naive_tz
         self.inbox: deque[_Item] = deque()
         self._ready = asyncio.Event()
         self._publish_wakeup = asyncio.Event()
@@ -99,6 +103,12 @@ class Service:
         self._events_seen: dict[str, int] = {}
         self._last_snapshot = 0.0
         self.taken = 0  # messages taken by the core since start (for tests and the demo)
+        self._n_in = 0  # messages accepted from the broker since start
+        self._reader: BurstReader | None = None
+        # Reading pauses while this many messages wait (the broker keeps the rest: a broker may send
+        # far more than its in-flight window after a reconnect). A smaller queue_size drops instead.
+        self._read_ahead = max(1, min(settings.queue_size, READ_AHEAD))
+        self._topics: dict[str, tuple[str | None, Callable[[str], bool] | None]] = {}  # topic -> station, gateway
         self._unjournalled: list[tuple[str, bytes]] = []  # fed to the core, not yet in the journal
         self._unacked: list[_Item] = []  # fed to the core, not yet acknowledged
         self._first_pending = 0.0
@@ -177,10 +187,14 @@ class Service:
         while not self._stopping.is_set():
             client = make_client(s, client_id=s.client_id, persistent=True, manual_ack=True,
                                  will=aiomqtt.Will(status, b"offline", qos=1, retain=True))
+            gen = self._gen + 1
+            receive_into(client, self._on_message(gen))
             try:
                 async with client:
-                    self._gen += 1
+                    self._gen = gen
                     self._client = client
+                    self._reader = BurstReader(client, lambda: self._n_in,
+                                               lambda: len(self.inbox) >= self._read_ahead, READ_BURST)
                     self.metrics.connected.set(1)
                     if not first:
                         self.metrics.reconnects.inc()
@@ -205,6 +219,7 @@ class Service:
                 was_up = False
             finally:
                 self._client = None
+                self._reader = None
                 self.connected.clear()
                 self.metrics.connected.set(0)
             if self._stopping.is_set():
@@ -231,21 +246,33 @@ class Service:
                 await asyncio.wait_for(self._consumer_done.wait(), 5)
 
     async def _receive(self, client: aiomqtt.Client) -> None:
+        """Ends (MqttError) when the connection drops. Messages come through `_accept`, called by
+        paho directly (see mqtt.receive_into); any that reach aiomqtt's queue are taken here."""
         gen = self._gen
-        cap = self.settings.queue_size
-        inbox = self.inbox
-        m = self.metrics
         async for msg in client.messages:
-            payload = msg.payload
-            if not isinstance(payload, bytes | bytearray):
-                payload = str(payload).encode()
-            item = _Item(gen, msg.mid, msg.qos, msg.topic.value, bytes(payload), time.time())
-            if len(inbox) >= cap:
-                old = inbox.popleft()
-                m.dropped.inc()
-                self._ack(old)
-            inbox.append(item)
-            self._ready.set()
+            self._accept(gen, msg.mid, msg.qos, msg.topic.value, msg.payload)
+
+    def _on_message(self, gen: int) -> Callable[[Any, Any, Any], None]:
+        """paho's message callback for connection `gen` (its message ids are only valid on it)."""
+        accept = self._accept
+
+        def on_message(_client: Any, _userdata: Any, msg: Any) -> None:
+            accept(gen, msg.mid, msg.qos, msg.topic, msg.payload)
+
+        return on_message
+
+    def _accept(self, gen: int, mid: int, qos: int, topic: str, payload: Any) -> None:
+        """One message in: onto the bounded inbox (full: the oldest is dropped, counted, acknowledged)."""
+        if type(payload) is not bytes:
+            payload = bytes(payload) if isinstance(payload, bytes | bytearray) else str(payload).encode()
+        inbox = self.inbox
+        if len(inbox) >= self.settings.queue_size:
+            old = inbox.popleft()
+            self.metrics.dropped.inc()
+            self._ack(old)
+        inbox.append(_Item(gen, mid, qos, topic, payload, time.time()))
+        self._n_in += 1
+        self._ready.set()
 
     def _ack(self, item: _Item) -> None:
         c = self._client
@@ -277,16 +304,10 @@ class Service:
                 if self._stopping.is_set():
                     self.commit()
                     return  # unacknowledged messages stay with the broker for next time
-                # The client reads one packet per loop turn: let what is already on the socket come
-                # in (the broker sends a window of unacknowledged messages) and take it as one batch.
-                quiet = 0
-                for _ in range(GATHER_TURNS):
-                    n = self._arrived()
-                    await asyncio.sleep(0)
-                    quiet = quiet + 1 if self._arrived() == n else 0
-                    if quiet >= 2 or len(self.inbox) >= GATHER_MAX:
-                        break
-                batch = [self.inbox.popleft() for _ in range(min(len(self.inbox), MAX_BATCH))]
+                batch = self._take()
+                r = self._reader
+                if r is not None and r.paused and len(self.inbox) < self._read_ahead // 2:
+                    r.resume()
                 self.metrics.queue_depth.set(len(self.inbox))
                 self.process_batch(batch)
                 if self._snapshot_due():
@@ -295,19 +316,39 @@ class Service:
         finally:
             self._consumer_done.set()
 
-    def _arrived(self) -> int:
-        """Messages waiting: ours plus those the client has read but not handed over yet."""
-        c = self._client
-        return len(self.inbox) + (len(c.messages) if c is not None else 0)
+    def _take(self) -> list[_Item]:
+        """The next chunk of the inbox to process (and then acknowledge) as one batch.
+
+        Within the broker's in-flight window (WINDOW or fewer waiting) CHUNK messages, so their
+        acknowledgements go out while the broker still has the rest of its window in flight to us.
+        A longer inbox (a backlog the broker sends unwindowed, e.g. after a reconnect) is taken in
+        larger chunks, up to BIG_CHUNK messages or BIG_CHUNK_BYTES of payload: fewer transactions,
+        acknowledgement writes and dashboard updates per message, and still short loop turns."""
+        inbox = self.inbox
+        n = len(inbox)
+        if n <= WINDOW:
+            return [inbox.popleft() for _ in range(min(n, CHUNK))]
+        batch: list[_Item] = []
+        size = 0
+        while inbox and len(batch) < BIG_CHUNK and size < BIG_CHUNK_BYTES:
+            item = inbox.popleft()
+            size += len(item.payload)
+            batch.append(item)
+        return batch
 
     def _decode(self, topic: str, payload: bytes) -> tuple[list[Observation], list[Any]]:
-        st = station_of(topic, self.obs_prefix)
+        known = self._topics.get(topic)
+        if known is None:
+            st = station_of(topic, self.obs_prefix)
+            gateway = st is not None and (st in self.gateways or topic in self.gateways)
+            known = (st, _anyone if gateway else None)
+            if len(self._topics) < 100_000:  # bounded: one entry per topic seen
+                self._topics[topic] = known
+        st, speaks = known
         if st is None:
             return [], []
-        gateway = st in self.gateways or topic in self.gateways
         try:
-            return decode_payload(payload, topic_station=st, may_speak_for=(lambda _s: True) if gateway else None,
-                                  naive_tz=self.config.naive_tz)
+            return decode_payload(payload, topic_station=st, may_speak_for=speaks, naive_tz=self._naive_tz)
         except (RecursionError, MemoryError, ValueError, TypeError) as exc:
             # The decoder refuses what it knows; a payload that trips the JSON parser itself (nesting
             # too deep) must not stop the stream either.
@@ -322,49 +363,61 @@ class Service:
         messages stay unacknowledged, so a crash loses nothing: the broker sends them again."""
         m = self.metrics
         eng = self.engine
+        feed = eng.feed
         known = eng.detectors
-        hub = self.hub
-        m.messages.inc(len(batch))
         self.taken += len(batch)
         if not self._unjournalled:
             self._first_pending = time.monotonic()
+        self._unacked.extend(batch)
+        journal = self._unjournalled
         outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
         n_rec = 0
         t_core = 0.0
         latest: dict[str, tuple[Observation, float]] = {}
         flags: dict[str, list[str]] = {}
+        refused: dict[str, int] = {}  # counted per batch, not per record (same totals)
         qc = eng.stats.qc
         perf = time.perf_counter
         for item in batch:
-            self._unacked.append(item)
             obs, errors = self._decode(item.topic, item.payload)
             for err in errors:
-                m.refused.labels(err.code).inc()
+                refused[err.code] = refused.get(err.code, 0) + 1
             if not obs:
                 continue
-            if any(o.station in known for o in obs):
-                self._unjournalled.append((item.topic, item.payload))
+            if len(obs) == 1:
+                if obs[0].station in known:
+                    journal.append((item.topic, item.payload))
+            elif any(o.station in known for o in obs):
+                journal.append((item.topic, item.payload))
             n_rec += len(obs)
             t0 = perf()
             received = item.received
             for o in obs:
                 try:
-                    produced = eng.feed(o)
+                    produced = feed(o)
                 except Exception:  # a bug in the core must not stop the stream: count, report once
                     self._core_error(o)
                     continue
-                for out in produced:
-                    outputs.append(self._route(out.to_dict(), received))
+                if produced:
+                    for out in produced:
+                        outputs.append(self._route(out.to_dict(), received))
                 latest[o.station] = (o, received)
                 if qc.total() != self._qc_total:
                     flags.setdefault(o.station, []).extend(self._new_flags())
             t_core += perf() - t0
         # The dashboard gets each station's newest record of the batch: every record at live rates
         # (a batch is one message), a sample when catching up on a backlog.
+        seen = m.station_seen
+        shown = []
         for sid, (o, received) in latest.items():
             if sid in known:
-                m.station_seen[sid] = (received, o.time)
-                hub.observe(o, flags.get(sid, ()))
+                seen[sid] = (received, o.time)
+                shown.append((o, flags.get(sid, ())))
+        if shown:
+            self.hub.observe_many(shown)
+        m.messages.inc(len(batch))
+        for code, k in refused.items():
+            m.refused.labels(code).inc(k)
         if n_rec:
             m.records.inc(n_rec)
             m.processing.observe(t_core / n_rec)
@@ -529,6 +582,11 @@ class Service:
             except TimeoutError:
                 log.warning("the web server did not stop within 10 s")
             sock.close()
+
+
+def _anyone(_station: str) -> bool:
+    """A gateway's topic may carry records of any station (unknown ones are counted by the core)."""
+    return True
 
 
 def is_event(out: object) -> bool:

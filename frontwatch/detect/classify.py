@@ -11,6 +11,9 @@ signature measured around the change against the look-alikes of DOMAIN.md sectio
 - wind shift: a clear turn of a sustained wind that fits none of them (cf. FMH-1's 45 degrees).
 A decision may be 'wait': the signature is still forming (e.g. temperature still plunging, which
 may yet become a gust front, or a smoothed wind vane not yet turned).
+A breeze front on less than a clear onshore turn with clearly marine air (the air alone under a
+missing or stuck vane, a halted offshore wind, an already-onshore wind) is a *weak* call: it waits
+to persist, and frontwatch/detect/corroborate.py has the network confirm it.
 """
 
 from __future__ import annotations
@@ -21,10 +24,11 @@ from dataclasses import dataclass
 from ..config import DetectorSettings
 
 # Minutes a weak breeze-front candidate must persist before it is called (a cloud shadow's dip lasts
-# some 10 to 40 minutes, common practice; 10 keeps the delay of the few weak calls moderate).
+# some 10 to 40 minutes, from memory; 10 keeps the delay of the few weak calls moderate).
 WEAK_PERSIST_MIN = 10.0
 # Change strength (noise units) from which a channel's own change time is trusted to within
-# coherence_min; weaker changes get a wider allowance (see the coherence test).
+# coherence_min; weaker changes get a wider allowance (see the coherence test). 5 is a judgement,
+# set once and not searched.
 TIMED_Z = 5.0
 
 

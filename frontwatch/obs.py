@@ -183,6 +183,7 @@ MAX_PAYLOAD_BYTES = 1_000_000
 _FAST_INDEX = {name: i for i, name in enumerate(CANONICAL)}
 _WIND_DIR = _FAST_INDEX["wind_dir_deg"]
 _hour_epoch: dict[str, float] = {}  # 'YYYY-MM-DDTHH' -> epoch seconds of that UTC hour
+_time_seen: dict[str, float] = {}  # recent time texts (a network's stations share each minute's)
 
 
 def _fast_time(s: str) -> float | None:
@@ -236,11 +237,16 @@ def _fast_record(rec: Any) -> Observation | None:
         elif key == "station":
             st = raw
         elif key == "time":
-            if type(raw) is not str:
-                return None
-            t = _fast_time(raw)
+            t = _time_seen.get(raw) if type(raw) is str else None
             if t is None:
-                return None
+                if type(raw) is not str:
+                    return None
+                t = _fast_time(raw)
+                if t is None:
+                    return None
+                if len(_time_seen) > 4096:
+                    _time_seen.clear()
+                _time_seen[raw] = t
         else:
             return None  # unit suffixes, rh_pct, unknown fields
     if t is None or type(st) is not str or not st or st[0].isspace() or st[-1].isspace():
@@ -276,6 +282,10 @@ def decode_payload(
         doc = json.loads(payload)
     except (ValueError, UnicodeDecodeError, RecursionError) as exc:
         return [], [DecodeError(f"malformed JSON: {exc}", station=topic_station, code="malformed_json")]
+    if type(doc) is dict:  # one record, the usual case: spare the loop below
+        one = _fast_record(doc)
+        if one is not None and (topic_station is None or one.station == topic_station):
+            return [one], []
     items: Iterable[Any] = doc if type(doc) is list else (doc,)
     good: list[Observation] = []
     bad: list[DecodeError] = []

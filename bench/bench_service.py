@@ -367,8 +367,8 @@ async def main(runs: int, records: int, latency_records: int, rate: float = 1000
             # One of each per run, back to back on the same broker and the same records, so the
             # ratios compare like with like on a machine whose load changes from minute to minute.
             for kind, out in (("bare", bare), ("fast", fast), ("svc", full), ("gw", gate)):
-                rate, us = await drain(kind)
-                out.append(rate)
+                got, us = await drain(kind)
+                out.append(got)
                 cpu[kind].append(us)
             print(f"  run {r + 1}: bare loop {bare[-1]:,.0f} msg/s, fast bare loop {fast[-1]:,.0f} msg/s, "
                   f"service {full[-1]:,.0f} records/s (ratio {full[-1] / bare[-1]:.2f}; "
@@ -391,8 +391,8 @@ async def main(runs: int, records: int, latency_records: int, rate: float = 1000
                   "receive, the event loop, publishing and glue):")
             for kind in ("svc", "gw"):
                 stages: dict[str, float] = {}
-                rate, _us = await drain(kind, stages)
-                total = 1e6 / rate
+                got, _us = await drain(kind, stages)
+                total = 1e6 / got
                 parts = {k: v / len(obs) * 1e6 for k, v in stages.items()}
                 rest = total - sum(parts.values())
                 label = "1 rec/msg " if kind == "svc" else "gateway   "

@@ -4,6 +4,7 @@ the store's journal/outbox, and recovery from a snapshot plus journal."""
 from __future__ import annotations
 
 import asyncio
+import json
 import time
 from dataclasses import dataclass
 from pathlib import Path
@@ -215,3 +216,48 @@ def test_a_core_failure_on_one_record_is_counted_and_the_stream_goes_on(svc_scen
                        for i, r in enumerate(recs)])
     assert svc.metrics.refused.labels("core_error")._value.get() == 1
     assert svc.engine.stats.records == 2
+
+
+def test_hub_batch_update_equals_one_by_one(svc_scenario) -> None:  # type: ignore[no-untyped-def]
+    """observe_many (what the service calls once a chunk) leaves the hub as observe() per record."""
+    from frontwatch.obs import Observation
+    from frontwatch.service.hub import DashboardHub
+
+    cfg = load_network(svc_scenario[0])
+    obs = list(read_observations([svc_scenario[1]], cfg))[:300]
+    obs.append(Observation("NOPE", obs[-1].time))  # unknown: counted, not kept
+    obs.append(Observation(obs[0].station, obs[-1].time + 60))  # every value missing
+    items = [(o, ("spike",) if i % 11 == 0 else ()) for i, o in enumerate(obs)]
+    one, many = DashboardHub(cfg), DashboardHub(cfg)
+    for o, f in items:
+        one.observe(o, f)
+    for k in range(0, len(items), 7):
+        many.observe_many(items[k:k + 7])
+    assert [(s, k, d) for s, k, d in many.since(0)] == [(s, k, d) for s, k, d in one.since(0)]
+    assert many.latest == one.latest and many.ignored == one.ignored == 1
+    assert many.qc_trouble == one.qc_trouble and many.data_time == one.data_time
+    assert {k: list(v) for k, v in many.qc_recent.items()} == {k: list(v) for k, v in one.qc_recent.items()}
+    assert all(repr(many.series[s].columns()) == repr(one.series[s].columns()) for s in one.series)  # NaN-safe
+    # the record text is the contract's canonical record (Observation.to_record)
+    assert json.loads(many.since(0)[1][2]) == obs[1].to_record()  # (record 0 also has "qc")
+
+
+def test_chunks_follow_the_broker_window_and_a_backlog_goes_in_larger_chunks(svc_scenario) -> None:  # type: ignore[no-untyped-def]
+    from frontwatch.service import runner
+
+    cfg = load_network(svc_scenario[0])
+    st = ServiceSettings(broker=parse_broker_url("mqtt://127.0.0.1:9"), prefix="p", db_path=None, http_port=None)
+    svc = Service(cfg, st)
+    for i in range(runner.WINDOW):
+        svc._accept(1, i, 1, "p/obs/GR01", b"{}")
+    assert len(svc._take()) == runner.CHUNK  # within the window: half of it, the rest stays in flight
+    svc.inbox.clear()
+    for i in range(1000):
+        svc._accept(1, i, 1, "p/obs/GR01", b"{}")
+    assert len(svc._take()) == runner.BIG_CHUNK
+    svc.inbox.clear()
+    big = b" " * 100_000  # gateway-sized payloads: the chunk is bounded by bytes too
+    for i in range(50):
+        svc._accept(1, i, 1, "p/obs/gw1", big)
+    assert len(svc._take()) == -(-runner.BIG_CHUNK_BYTES // len(big))
+    assert svc._n_in == runner.WINDOW + 1050

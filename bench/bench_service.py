@@ -259,7 +259,13 @@ async def latency_run(net: Path, cfg: NetworkConfig, url: str, obs: list[Observa
             t_data = parse_time(str(out["issued_at"]))
             if t_data in first_at:
                 allout.append(t_recv - first_at[t_data])
+                SLOWEST.append((t_recv - first_at[t_data], str(out["type"])))
+    SLOWEST.sort(reverse=True)
+    del SLOWEST[5:]
     return ev, allout
+
+
+SLOWEST: list[tuple[float, str]] = []  # the latency run's slowest site outputs (seconds, type), for a look
 
 
 def _cpu_seconds(pid: int) -> float:

@@ -114,6 +114,23 @@ class BurstReader:
         self._pending = getattr(sock, "pending", None)  # TLS: bytes decrypted but not read yet
         if self.fd >= 0:
             client._loop.add_reader(self.fd, self._read)
+            # aiomqtt registers the socket for writing through call_soon_threadsafe (paho may ask
+            # from its connect thread). Once connected every request comes from the loop's own
+            # thread, and a deferred registration goes wrong after a direct write (flush_writes):
+            # paho has written everything and unregistered, then the late registration arrives
+            # and the loop wakes for a writable socket on every turn, for ever (a busy loop).
+            pc.on_socket_register_write = self._register_write
+
+    def _register_write(self, _client: Any, _userdata: Any, sock: Any) -> None:
+        self.client._loop.add_writer(sock.fileno(), self._write)
+
+    def _write(self) -> None:
+        try:
+            self.client._client.loop_write()
+        except Exception as exc:  # as aiomqtt's own writer: a broken socket ends the connection
+            fut = self.client._disconnected
+            if not fut.done():
+                fut.set_exception(exc)
 
     def _read(self) -> None:
         pc = self.client._client

@@ -251,13 +251,35 @@ def test_chunks_follow_the_broker_window_and_a_backlog_goes_in_larger_chunks(svc
     for i in range(runner.WINDOW):
         svc._accept(1, i, 1, "p/obs/GR01", b"{}")
     assert len(svc._take()) == runner.CHUNK  # within the window: half of it, the rest stays in flight
-    svc.inbox.clear()
+    assert len(svc._take()) == runner.WINDOW - runner.CHUNK and svc._inbox_bytes == 0
     for i in range(1000):
         svc._accept(1, i, 1, "p/obs/GR01", b"{}")
     assert len(svc._take()) == runner.BIG_CHUNK
     svc.inbox.clear()
+    svc._inbox_bytes = 0
     big = b" " * 100_000  # gateway-sized payloads: the chunk is bounded by bytes too
     for i in range(50):
         svc._accept(1, i, 1, "p/obs/gw1", big)
     assert len(svc._take()) == -(-runner.BIG_CHUNK_BYTES // len(big))
     assert svc._n_in == runner.WINDOW + 1050
+
+
+def test_reading_pauses_at_the_read_ahead_and_a_small_queue_drops_instead(svc_scenario) -> None:  # type: ignore[no-untyped-def]
+    from frontwatch.service import runner
+
+    cfg = load_network(svc_scenario[0])
+    st = ServiceSettings(broker=parse_broker_url("mqtt://127.0.0.1:9"), prefix="p", db_path=None, http_port=None)
+    svc = Service(cfg, st)  # default queue (10,000): reading pauses first, nothing is dropped
+    for i in range(runner.READ_AHEAD - 1):
+        svc._accept(1, i, 1, "p/obs/GR01", b"{}")
+    assert not svc._inbox_full()
+    svc._accept(1, 0, 1, "p/obs/GR01", b"{}")
+    assert svc._inbox_full() and svc.metrics.dropped._value.get() == 0
+    svc2 = Service(cfg, ServiceSettings(broker=st.broker, prefix="p", db_path=None, http_port=None, queue_size=50))
+    for i in range(runner.READ_AHEAD):
+        svc2._accept(1, i, 1, "p/obs/GR01", b"{}")
+    assert not svc2._inbox_full() and len(svc2.inbox) == 50  # the queue bound comes first: drop the oldest
+    assert svc2.metrics.dropped._value.get() == runner.READ_AHEAD - 50
+    svc3 = Service(cfg, st)  # large payloads: the byte bound pauses reading
+    svc3._accept(1, 1, 1, "p/obs/gw1", b" " * runner.READ_AHEAD_BYTES)
+    assert svc3._inbox_full()

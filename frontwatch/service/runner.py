@@ -48,6 +48,7 @@ BIG_CHUNK = 200  # messages in one batch when more than WINDOW wait
 BIG_CHUNK_BYTES = 256_000  # ... or this much payload (gateway arrays: about 1,200 records)
 READ_BURST = 64  # packets read from the socket per wake-up (paho reads one per call)
 READ_AHEAD = 400  # messages waiting in the inbox before reading pauses
+READ_AHEAD_BYTES = 8_000_000  # ... or this much payload
 
 
 @dataclass(slots=True)
@@ -105,9 +106,10 @@ class Service:
         self.taken = 0  # messages taken by the core since start (for tests and the demo)
         self._n_in = 0  # messages accepted from the broker since start
         self._reader: BurstReader | None = None
-        # Reading pauses while this many messages wait (the broker keeps the rest: a broker may send
-        # far more than its in-flight window after a reconnect). A smaller queue_size drops instead.
-        self._read_ahead = max(1, min(settings.queue_size, READ_AHEAD))
+        # Reading pauses while READ_AHEAD messages or READ_AHEAD_BYTES of payload wait (the broker
+        # keeps the rest: it may send far more than its in-flight window after a reconnect). A
+        # queue_size below READ_AHEAD drops the oldest instead, as before.
+        self._inbox_bytes = 0
         self._topics: dict[str, tuple[str | None, Callable[[str], bool] | None]] = {}  # topic -> station, gateway
         self._unjournalled: list[tuple[str, bytes]] = []  # fed to the core, not yet in the journal
         self._unacked: list[_Item] = []  # fed to the core, not yet acknowledged
@@ -194,7 +196,7 @@ class Service:
                     self._gen = gen
                     self._client = client
                     self._reader = BurstReader(client, lambda: self._n_in,
-                                               lambda: len(self.inbox) >= self._read_ahead, READ_BURST)
+                                               self._inbox_full, READ_BURST)
                     self.metrics.connected.set(1)
                     if not first:
                         self.metrics.reconnects.inc()
@@ -268,9 +270,11 @@ class Service:
         inbox = self.inbox
         if len(inbox) >= self.settings.queue_size:
             old = inbox.popleft()
+            self._inbox_bytes -= len(old.payload)
             self.metrics.dropped.inc()
             self._ack(old)
         inbox.append(_Item(gen, mid, qos, topic, payload, time.time()))
+        self._inbox_bytes += len(payload)
         self._n_in += 1
         self._ready.set()
 
@@ -306,7 +310,8 @@ class Service:
                     return  # unacknowledged messages stay with the broker for next time
                 batch = self._take()
                 r = self._reader
-                if r is not None and r.paused and len(self.inbox) < self._read_ahead // 2:
+                if r is not None and r.paused and len(self.inbox) < READ_AHEAD // 2 and \
+                        self._inbox_bytes < READ_AHEAD_BYTES // 2:
                     r.resume()
                 self.metrics.queue_depth.set(len(self.inbox))
                 self.process_batch(batch)
@@ -327,14 +332,20 @@ class Service:
         inbox = self.inbox
         n = len(inbox)
         if n <= WINDOW:
-            return [inbox.popleft() for _ in range(min(n, CHUNK))]
-        batch: list[_Item] = []
+            batch = [inbox.popleft() for _ in range(min(n, CHUNK))]
+            self._inbox_bytes -= sum(len(i.payload) for i in batch)
+            return batch
+        batch = []
         size = 0
         while inbox and len(batch) < BIG_CHUNK and size < BIG_CHUNK_BYTES:
             item = inbox.popleft()
             size += len(item.payload)
             batch.append(item)
+        self._inbox_bytes -= size
         return batch
+
+    def _inbox_full(self) -> bool:
+        return len(self.inbox) >= READ_AHEAD or self._inbox_bytes >= READ_AHEAD_BYTES
 
     def _decode(self, topic: str, payload: bytes) -> tuple[list[Observation], list[Any]]:
         known = self._topics.get(topic)

@@ -283,3 +283,13 @@ def test_reading_pauses_at_the_read_ahead_and_a_small_queue_drops_instead(svc_sc
     svc3 = Service(cfg, st)  # large payloads: the byte bound pauses reading
     svc3._accept(1, 1, 1, "p/obs/gw1", b" " * runner.READ_AHEAD_BYTES)
     assert svc3._inbox_full()
+
+
+def test_warm_up_leaves_the_core_untouched(svc_scenario) -> None:  # type: ignore[no-untyped-def]
+    cfg = load_network(svc_scenario[0])
+    st = ServiceSettings(broker=parse_broker_url("mqtt://127.0.0.1:9"), prefix="p", db_path=None, http_port=None)
+    svc = Service(cfg, st)
+    before = json.dumps(svc.engine.snapshot(), sort_keys=True, default=str)
+    assert svc.warm_up() > 0
+    assert json.dumps(svc.engine.snapshot(), sort_keys=True, default=str) == before
+    assert svc.engine.stats.records == 0 and svc.store.outputs() == [] and svc.hub.seq == 0

@@ -249,6 +249,7 @@ async def latency_run(net: Path, cfg: NetworkConfig, url: str, obs: list[Observa
     from frontwatch.timeutil import parse_time
 
     ev, allout = [], []
+    SLOWEST.clear()
     for t_recv, out in received:
         if "type" not in out:
             key = (str(out["station"]), parse_time(str(out["detected_at"])))
@@ -260,7 +261,7 @@ async def latency_run(net: Path, cfg: NetworkConfig, url: str, obs: list[Observa
             if t_data in first_at:
                 allout.append(t_recv - first_at[t_data])
                 SLOWEST.append((t_recv - first_at[t_data], str(out["type"])))
-    SLOWEST.sort(reverse=True)
+    SLOWEST[:] = sorted(SLOWEST, reverse=True)
     del SLOWEST[5:]
     return ev, allout
 
@@ -423,6 +424,7 @@ async def main(runs: int, records: int, latency_records: int, rate: float = 1000
               f"(median of {runs} runs; target <= 50 ms)")
         print(f"observation-to-event  p99 at {rate:,.0f} records/s: {p99(ev_all) * 1e3:.1f} ms "
               f"(all {len(ev_all)} events of the runs pooled)")
+        print("slowest site outputs of the last run: " + ", ".join(f"{k} {v * 1e3:.0f} ms" for v, k in SLOWEST))
 
 
 if __name__ == "__main__":

@@ -102,7 +102,7 @@ async def test_fuzz_ten_thousand_bad_payloads(broker_url: str, prefix: str, svc_
         await publish_messages(msgs[k:k + 500], st)
         assert await wait_until(lambda k=k: svc.taken >= k + min(500, N - k), 30), (svc.taken, k)
     assert not run.done()  # nothing stopped the service
-    refused = sum(s.value for s in metrics.refused.collect()[0].samples if s.name.endswith("_total"))
+    refused = sum(s.value for s in list(metrics.refused.collect())[0].samples if s.name.endswith("_total"))
     assert refused == N
     assert svc.engine.stats.records == 0  # none reached the core
     # and the stream goes on

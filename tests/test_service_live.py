@@ -113,7 +113,7 @@ async def test_refused_payloads_counted_by_reason(broker_url: str, prefix: str, 
         gw = [{**good, "station": "GR02"}, {**good, "station": "GR03"}, {**good, "station": "ZZ", "time": 5}]
         await c.publish(t_pub + "gw1", json.dumps(gw).encode(), qos=1)
     assert await wait_until(lambda: svc.taken >= len(bad) + 5, 10)
-    refused = {s.labels["reason"]: s.value for s in metrics.refused.collect()[0].samples
+    refused = {s.labels["reason"]: s.value for s in list(metrics.refused.collect())[0].samples
                if s.name.endswith("_total")}
     assert refused == {"station_mismatch": 1, "malformed_json": 2, "wrong_type": 2, "not_finite": 1,
                        "bad_time": 2, "too_large": 1, "not_object": 2}
@@ -147,7 +147,9 @@ async def test_last_will_says_offline_when_the_service_dies(broker_url: str, pre
                 break
         client = svc._client
         assert client is not None
-        client._client.socket().shutdown(socket.SHUT_RDWR)  # the connection dies as in a crash
+        sock = client._client.socket()
+        assert isinstance(sock, socket.socket)
+        sock.shutdown(socket.SHUT_RDWR)  # the connection dies as in a crash
         async with asyncio.timeout(10):
             async for m in c.messages:
                 if m.payload == b"offline":

@@ -66,7 +66,7 @@ class ServiceMetrics:
         self.webhooks = Counter("frontwatch_webhook_deliveries", "Alert webhook deliveries, by outcome (sent/failed/dropped)",
                                 ["outcome"], registry=r)
         self.processing = Histogram("frontwatch_record_processing_seconds",
-                                    "Core time per record (decode excluded), averaged over each message",
+                                    "Core time per record (decode excluded), averaged over each batch of messages",
                                     buckets=_PROC_BUCKETS, registry=r)
         self.latency = Histogram("frontwatch_observation_to_event_seconds",
                                  "From arrival of the message that caused an output to its acknowledged publish",

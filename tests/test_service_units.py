@@ -293,3 +293,27 @@ def test_warm_up_leaves_the_core_untouched(svc_scenario) -> None:  # type: ignor
     assert svc.warm_up() > 0
     assert json.dumps(svc.engine.snapshot(), sort_keys=True, default=str) == before
     assert svc.engine.stats.records == 0 and svc.store.outputs() == [] and svc.hub.seq == 0
+
+
+def test_queued_acks_are_joined_into_one_write_with_the_same_bytes() -> None:
+    """coalesce_acks joins runs of unstarted PUBACKs in paho's write queue; the bytes are those of
+    the PUBACKs in order (MQTT 3.1.1 section 3.4: 0x40, remaining length 2, packet id big-endian),
+    a packet of another kind or one already partly written stays where it is."""
+    import paho.mqtt.client as paho
+
+    from frontwatch.service.mqtt import coalesce_acks
+
+    pc = paho.Client(paho.CallbackAPIVersion.VERSION2, client_id="t", manual_ack=True)
+    for mid in (1, 2, 300):
+        pc.ack(mid, 1)
+    pc._out_packet.append({"command": 0x30, "mid": 9, "qos": 1, "pos": 0, "to_process": 3,
+                           "packet": bytearray(b"pub"), "info": None})  # a PUBLISH: not joined
+    for mid in (7, 8):
+        pc.ack(mid, 1)
+    pc._out_packet[0]["pos"] = 1  # partly written already: left alone
+    pc._out_packet[0]["to_process"] = 3
+    coalesce_acks(pc)
+    q = list(pc._out_packet)
+    assert [bytes(p["packet"]) for p in q] == [b"\x40\x02\x00\x01", b"\x40\x02\x00\x02\x40\x02\x01\x2c", b"pub",
+                                               b"\x40\x02\x00\x07\x40\x02\x00\x08"]
+    assert [p["to_process"] for p in q] == [3, 8, 3, 8] and [p["pos"] for p in q] == [1, 0, 0, 0]

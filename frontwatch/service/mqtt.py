@@ -171,6 +171,41 @@ def ack(client: aiomqtt.Client, mid: int, qos: int) -> None:
 
 
 _CORK = getattr(socket, "TCP_CORK", None)  # Linux
+_PUBACK = 0x40  # MQTT control packet type 4 (PUBACK) in the high nibble
+
+
+def coalesce_acks(pc: paho.Client) -> None:
+    """Join runs of queued, unstarted PUBACK packets in paho's write queue into one packet each, so
+    a chunk's acknowledgements take one send() instead of one each. paho does nothing with a
+    written PUBACK but drop it, and the bytes and their order are unchanged, so this is invisible
+    to the broker. Anything unexpected in the queue (another paho version) leaves it as it is."""
+    try:
+        q = pc._out_packet
+        if len(q) < 2:
+            return
+        out: list[Any] = []
+        run: list[Any] = []
+
+        def close_run() -> None:
+            if len(run) > 1:
+                data = bytearray().join(run_p["packet"] for run_p in run)
+                out.append({**run[-1], "pos": 0, "to_process": len(data), "packet": data})
+            else:
+                out.extend(run)
+            run.clear()
+
+        for p in q:
+            if (p["command"] & 0xF0) == _PUBACK and p["pos"] == 0 and p.get("info") is None:
+                run.append(p)
+            else:
+                close_run()
+                out.append(p)
+        close_run()
+        if len(out) < len(q):
+            q.clear()
+            q.extend(out)
+    except (AttributeError, KeyError, TypeError):
+        return
 
 
 def flush_writes(client: aiomqtt.Client) -> None:
@@ -181,6 +216,7 @@ def flush_writes(client: aiomqtt.Client) -> None:
     the socket for the loop makes a chunk's acknowledgements one segment (sent at the uncork)."""
     pc = client._client
     sock = pc.socket()
+    coalesce_acks(pc)
     cork = _CORK is not None and sock is not None and len(pc._out_packet) > 1
     with contextlib.suppress(Exception):  # a dying connection: the broker will redeliver
         if cork:

@@ -63,6 +63,7 @@ class Signature:
     rain_after: float
     depression_after: float = float("nan")  # T - Td of the recent air, degC (0 = saturated)
     change_times_min: tuple[float, ...] = ()  # each of T, Td, onshore wind: own change time vs onset
+    sample_min: float = 1.0  # the station's reporting interval, minutes (change times come in these steps)
 
 
 @dataclass(frozen=True, slots=True)
@@ -167,8 +168,12 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         # mean shift scatters in proportion to (sigma/delta)^2, i.e. to 1/z^2 for a given window
         # (Hinkley 1970, Biometrika 57). Each channel's allowance widens by (TIMED_Z / |z|)^2 below
         # TIMED_Z, the strength from which a change is taken as timed to within coherence_min.
+        # Change times come in whole reporting intervals: a station reporting every 10 minutes
+        # cannot show two channels changing closer than one interval apart.
+        step = 1.5 * sig.sample_min
+
         def allow(z: float) -> float:
-            return s.coherence_min * max(1.0, (TIMED_Z / max(abs(z), 1e-9)) ** 2)
+            return max(s.coherence_min * max(1.0, (TIMED_Z / max(abs(z), 1e-9)) ** 2), step)
         lag = 0.5 * max(0, averaging - 1)
         zs = (sig.z_temp, sig.z_dewpoint, sig.z_onshore)
         idx = [i for i, ok in ((0, sig_t), (1, sig_d)) if ok]

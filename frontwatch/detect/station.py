@@ -120,12 +120,19 @@ class StationDetector:
             arr = np.fromiter(itertools.chain.from_iterable(ring), float, len(ring) * _NCOL).reshape(len(ring), _NCOL)
         t = arr[:, _T]
         x = arr[:, _TC:_P + 1]
-        earliest = max(now - st.max_wait_min * 60.0, self.quiet_until)
+        # The windows are set in minutes for per-minute records; a station reporting less often
+        # (every 5 or 10 minutes) needs them to hold enough of its records: a baseline of at least
+        # 6.5 intervals (the split needs 6 records before), a decision window of 2.5, and one
+        # interval after the onset. At one record a minute these are the settings themselves.
+        dt = _cadence_s(t)
+        baseline_s = max(st.baseline_min * 60.0, 6.5 * dt)
+        wait_s = max(st.max_wait_min * 60.0, 2.5 * dt)
+        earliest = max(now - wait_s, self.quiet_until)
         first = int(np.searchsorted(t, earliest, side="left"))
-        last = int(np.searchsorted(t, now - (st.confirm_min - 1) * 60.0, side="right")) - 1
+        last = int(np.searchsorted(t, now - max((st.confirm_min - 1) * 60.0, dt), side="right")) - 1
         w = WEIGHTS
         ow = w if self.averaging <= 1 else w * np.array([1.0, 1.0, 0.3, 0.3, 0.5])
-        sp = best_split(t, x, w, first, last, st.baseline_min * 60.0, ow)
+        sp = best_split(t, x, w, first, last, baseline_s, ow)
         if sp is None or sp.strength < st.min_score:
             self.pending = False
             return None
@@ -134,8 +141,8 @@ class StationDetector:
         if t_o < self.quiet_until:
             self.pending = False
             return None
-        sig = self._signature(arr, list(self.ring) if from_ring else arr.tolist(), sp, o, now)
-        can_wait = now - t_o < st.max_wait_min * 60.0
+        sig = self._signature(arr, list(self.ring) if from_ring else arr.tolist(), sp, o, now, baseline_s, dt)
+        can_wait = now - t_o < wait_s
         dec = classify(sig, st, self.halfwidth, can_wait, self.averaging)
         if dec.kind is None:
             self.pending = bool(dec.wait)
@@ -167,13 +174,14 @@ class StationDetector:
                                                                     if np.isfinite(arr[-3:, _TC]).any() else NAN),
         )
 
-    def _signature(self, arr: np.ndarray, rows: list[Any], sp: Any, o: int, now: float) -> Signature:
+    def _signature(self, arr: np.ndarray, rows: list[Any], sp: Any, o: int, now: float, baseline_s: float,
+                   dt: float) -> Signature:
         st = self.settings
         t = arr[:, _T]
         t_o = t[o]
         n = len(t)
-        pre_lo = int(np.searchsorted(t, t_o - st.baseline_min * 60.0, side="left"))
-        wind_lo = int(np.searchsorted(t, t_o - 15 * 60.0, side="left"))
+        pre_lo = int(np.searchsorted(t, t_o - baseline_s, side="left"))
+        wind_lo = int(np.searchsorted(t, t_o - max(15 * 60.0, 2.5 * dt), side="left"))
         rec_lo = max(o, n - 3)
         xd = sp.detrended
         pre, n_pre = sp.range_mean(pre_lo, o)
@@ -245,6 +253,7 @@ class StationDetector:
             depression_after=depression,
             # minutes between the temperature's, the dewpoint's and the onshore wind's own change times
             change_times_min=tuple(float((t[i] - t_o) / 60.0) for i in sp.channel_split[:3]),
+            sample_min=dt / 60.0,
         )
 
     # ------------------------------------------------------------------ state
@@ -261,6 +270,14 @@ class StationDetector:
         self.quiet_until = float(snap["quiet_until"])
         self.last_onset = {k: float(v) for k, v in snap["last_onset"].items()}
         self.last_evidence = {k: float(v) for k, v in snap["last_evidence"].items()}
+
+
+def _cadence_s(t: np.ndarray) -> float:
+    """The station's reporting interval, s: the median spacing of the window's records (gaps do
+    not move a median), never under a minute (the windows are set for per-minute records)."""
+    if len(t) < 3:
+        return 60.0
+    return max(60.0, float(np.median(np.diff(t))))
 
 
 def _mean2(rows: list[tuple[float, ...]], lo: int, hi: int, i: int, j: int) -> tuple[float, float]:

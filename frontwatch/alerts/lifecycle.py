@@ -305,7 +305,8 @@ class SiteAlerts:
             headline = f"Sea-breeze front no longer expected at {name}: {reason}"
         for e in exceeded:
             label = {"gust": "gusts", "temp_drop": "temperature drop", "wind_shift": "wind shift"}[e.quantity]
-            headline += f"; {label} {e.expected:.1f} {e.unit} expected (limit {e.limit:g} {e.unit})"
+            digits = 0 if e.quantity == "wind_shift" else 1  # a bearing to the degree; speeds, drops to 0.1
+            headline += f"; {label} {e.expected:.{digits}f} {e.unit} expected (limit {e.limit:g} {e.unit})"
         ex = fc.expected
         parts = [f"Front moving toward {fc.front_heading_deg:.0f} deg at {fc.front_speed_ms:.1f} m/s, "
                  f"seen at {fc.stations} station(s), basis {fc.basis}."] if fc.front_speed_ms is not None and \

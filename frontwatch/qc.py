@@ -4,6 +4,8 @@ out-of-order/late records and gaps (after Zahumensky 2004, WMO guidelines on QC 
 check(obs) returns the record with every flagged value set to NaN (so a flagged value never feeds
 a detector) plus the flags, each a short reason used as a counter label. A record out of time
 order is refused whole. Limits come from QCSettings; their numbers are from memory (DOMAIN.md).
+frontwatch/scan.py repeats these steps as a compiled loop for offline replay: change both
+(tests/test_core_batch.py fails when they differ).
 """
 
 from __future__ import annotations

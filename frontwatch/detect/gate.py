@@ -5,7 +5,8 @@ opens. The gate only decides when to look, never what was found, and errs on the
 Each channel's threshold scales with that channel's own recent wander (the typical size of its
 fast-minus-slow deviation over the last hour or so), so a gusty or drifting station does not
 keep the gate open and a quiet one is not missed. Written out channel by channel: it runs for
-every observation.
+every observation. frontwatch/scan.py repeats it as a compiled loop for offline replay: change
+both (tests/test_core_batch.py fails when they differ).
 """
 
 from __future__ import annotations

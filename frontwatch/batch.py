@@ -19,6 +19,7 @@ from collections.abc import Callable
 from typing import Any
 
 import numpy as np
+import pandas as pd
 
 from . import scan as scanmod
 from .detect import gate as gatemod
@@ -53,9 +54,10 @@ def run(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
     times = np.asarray(columns["time"], dtype=float)
     stats = eng.stats
     stats.records += n
-    ids, inv = np.unique(station.astype(str), return_inverse=True)
-    order = np.argsort(inv, kind="stable")  # station-major, each station's records in stream order
-    bounds = np.searchsorted(inv[order], np.arange(len(ids) + 1))
+    codes, uniq = pd.factorize(station, sort=True)  # hashing: much cheaper than sorting the ids
+    ids = np.asarray(uniq, dtype=object).astype(str)
+    order = np.argsort(codes, kind="stable")  # station-major, each station's records in stream order
+    bounds = np.searchsorted(codes[order], np.arange(len(ids) + 1))
     used = np.zeros(n, dtype=bool)
     # The QC'd records, as the site watch is given them (the rain is not QC'd)
     clean = {k: np.full(n, np.nan) for k in _FIELDS[:-1]}
@@ -100,7 +102,7 @@ def run(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
         s = str(station[i])
         u[s if s in u or len(u) < MAX_UNKNOWN else "(others)"] += 1
     raw.sort(key=lambda x: x[0])
-    out = _network(eng, raw, station, times, used, cols, clean)
+    out = _network(eng, raw, codes, ids, times, used, cols, clean)
     if progress is not None:
         progress(n)
     return out
@@ -160,8 +162,9 @@ def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: n
     return out
 
 
-def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], station: np.ndarray, times: np.ndarray,
-             used: np.ndarray, cols: dict[str, np.ndarray], clean: dict[str, np.ndarray]) -> list[Output]:
+def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray, ids: np.ndarray,
+             times: np.ndarray, used: np.ndarray, cols: dict[str, np.ndarray],
+             clean: dict[str, np.ndarray]) -> list[Output]:
     """Corroboration and the site watch over the events in stream order (Engine.feed's tail)."""
     stats = eng.stats
     watch = eng.watch
@@ -174,9 +177,10 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], station: np.ndarr
         return out
     upos = np.flatnonzero(used)
     ut = times[upos]
-    ust = station[upos].astype(str)
+    ucode = codes[upos]
+    ust = ids[ucode]
     # Records the watch must see: its own stations', the first of each new minute, the events'.
-    watched = np.isin(ust, list(watch._watched))
+    watched = np.isin(ucode, [k for k, sid in enumerate(ids.tolist()) if sid in watch._watched])
     minute = np.floor_divide(ut, 60.0)
     new_minute = np.ones(len(ut), dtype=bool)
     new_minute[1:] = minute[1:] > minute[:-1]

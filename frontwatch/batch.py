@@ -22,15 +22,12 @@ import numpy as np
 import pandas as pd
 
 from . import scan as scanmod
-from .detect import gate as gatemod
 from .detect.gate import Gate
-from .detect.station import RESET_GAP_S, StationDetector
+from .detect.station import StationDetector
 from .engine import MAX_UNKNOWN, Engine, Output
 from .events import PassageEvent
 from .obs import Observation
 
-GATE_CONSTS = (gatemod.FAST, gatemod.SLOW, gatemod.WANDER, gatemod.K2, gatemod.FLOOR_T, gatemod.FLOOR_W,
-               gatemod.MIN_WANDER)
 _FIELDS = ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms", "temp_c", "dewpoint_c", "pressure_hpa", "rain_mm")
 
 
@@ -73,11 +70,10 @@ def run(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
         q, det = pair
         qs = scanmod.qc_state(q)
         gs = np.array(det.gate.state(), dtype=float)
-        qp = scanmod.qc_params(q, GATE_CONSTS, RESET_GAP_S)
-        rows, wd, ws, flags, opened, reset, _ = scanmod.scan(
+        rows, wd, ws, flags, opened, reset = scanmod.scan(
             times[pos], cols["wind_dir_deg"][pos], cols["wind_speed_ms"][pos], cols["wind_gust_ms"][pos],
             cols["temp_c"][pos], cols["dewpoint_c"][pos], cols["pressure_hpa"][pos], cols["rain_mm"][pos],
-            qs, qp, gs, np.nan, det._sin_o, det._cos_o)
+            qs, scanmod.params(q), gs, np.nan, det._sin_o, det._cos_o)
         scanmod.set_qc_state(q, qs)
         _count_flags(stats.qc, flags)
         ok = (flags & scanmod.REFUSED_BITS) == 0
@@ -120,15 +116,12 @@ def _count_flags(counter: Any, flags: np.ndarray) -> None:
 
 def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: np.ndarray,
             gpos: np.ndarray) -> list[tuple[int, PassageEvent]]:
-    """StationDetector.update's decisions over a station's scanned rows: evaluate where the gate
-    opened or a candidate is pending (ring long enough, past the quiet time); leave the detector
-    in the state record-by-record feeding would leave it."""
-    st = det.settings
+    """StationDetector.update's decisions over a station's scanned rows: where the gate opened or
+    a candidate is pending, its evaluate_if_due; leave the detector in the state record-by-record
+    feeding would leave it."""
     n = len(rows)
     maxlen = det.maxlen
-    c = (st.confirm_min - 1) * 60.0
-    t = rows[:, 0]
-    tl = t.tolist()
+    tl = rows[:, 0].tolist()
     cand = np.flatnonzero(opened).tolist()
     seg = np.flatnonzero(reset).tolist()  # indices where the ring restarted
     out: list[tuple[int, PassageEvent]] = []
@@ -150,10 +143,9 @@ def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: n
         k = bisect_right(seg, i)
         start = seg[k - 1] if k else 0
         length = min(maxlen, i - start + 1)
-        if length >= 20 and tl[i] - c >= det.quiet_until:
-            ev = det._evaluate(tl[i], rows[i - length + 1:i + 1].copy())
-            if ev is not None:
-                out.append((int(gpos[i]), ev))
+        ev = det.evaluate_if_due(length, tl[i], rows[i - length + 1:i + 1].copy())
+        if ev is not None:
+            out.append((int(gpos[i]), ev))
         if i + 1 >= n:
             break
     if n:
@@ -166,15 +158,10 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
              times: np.ndarray, used: np.ndarray, cols: dict[str, np.ndarray],
              clean: dict[str, np.ndarray]) -> list[Output]:
     """Corroboration and the site watch over the events in stream order (Engine.feed's tail)."""
-    stats = eng.stats
     watch = eng.watch
-    out: list[Output] = []
     if watch is None:
-        for _, e in raw:
-            e = eng.corroborate.check(e)
-            stats.events[e.kind] += 1
-            out.append(e)
-        return out
+        return [eng.network_event(e) for _, e in raw]
+    out: list[Output] = []
     upos = np.flatnonzero(used)
     ut = times[upos]
     ucode = codes[upos]
@@ -205,8 +192,7 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
         synced = ci + 1
         o = _obs(ust_l[ci], t, g, cols, clean)
         if ev is not None:
-            ev = eng.corroborate.check(ev)
-            stats.events[ev.kind] += 1
+            ev = eng.network_event(ev)
             out.append(ev)
         out.extend(watch.observe(o, ev))
     if synced < len(ut_l):

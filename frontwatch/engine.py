@@ -13,6 +13,7 @@ from typing import Any, Protocol
 from .config import NetworkConfig
 from .detect.corroborate import Corroborator
 from .detect.station import StationDetector
+from .events import PassageEvent
 from .obs import Observation
 from .qc import StationQC
 
@@ -92,12 +93,18 @@ class Engine:
         watch = self.watch
         if ev is None:
             return [] if watch is None else watch.observe(clean, None)
-        ev = self.corroborate.check(ev)
-        stats.events[ev.kind] += 1
+        ev = self.network_event(ev)
         out: list[Output] = [ev]
         if watch is not None:
             out.extend(watch.observe(clean, ev))
         return out
+
+    def network_event(self, ev: PassageEvent) -> PassageEvent:
+        """A station detector's event through the network check (corroboration), counted by kind:
+        what feed() emits (frontwatch.batch calls it in the same stream order)."""
+        ev = self.corroborate.check(ev)
+        self.stats.events[ev.kind] += 1
+        return ev
 
     def feed_many(self, observations: Any) -> list[Output]:
         out: list[Output] = []

@@ -18,6 +18,10 @@ from typing import Any
 
 import numpy as np
 
+from .detect import gate
+from .detect.station import NCOL, RESET_GAP_S
+from .qc import _RECOVER
+
 njit: Any
 try:  # optional: the record-by-record path needs nothing compiled
     from numba import njit
@@ -30,11 +34,9 @@ FLAG_NAMES = ("gap", "temp_range", "temp_stuck", "temp_step", "dewpoint_range", 
               "wind_speed_step", "pressure_range", "pressure_stuck", "pressure_step", "wind_dir_stuck",
               "gust_range", "duplicate", "late", "out_of_order")
 REFUSED_BITS = (1 << 16) | (1 << 17) | (1 << 18)  # a refused record never reaches the detector
-# QC state: newest, then (last, last_t, run_value, run_start, pend, npend) of T, Td, speed, pressure, vane
-QC_STATE_LEN = 1 + 5 * 6
-# Gate state in frontwatch.detect.gate.Gate.__slots__ order, then the time of the detector's last row
-GATE_STATE_LEN = 14
-NCOL = 10  # a detector ring row: time, T, Td, onshore, alongshore, p, u, v, gust, rain
+# QC state (qc_state): newest, then (last, last_t, run_value, run_start, pend, npend) of T, Td, speed,
+# pressure, vane. Gate state: frontwatch.detect.gate.Gate.state(), in its __slots__ order.
+GATE_STATE_LEN = len(gate.Gate.__slots__)
 
 
 def available() -> bool:
@@ -46,13 +48,12 @@ def _scan_py(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc
              gs: np.ndarray, last_row_t: float, so: float, co: float, rows: np.ndarray,
              wd_out: np.ndarray, ws_out: np.ndarray, flags: np.ndarray, opened: np.ndarray,
              reset: np.ndarray) -> float:
-    """The loop numba compiles (see the module docstring). qp: per channel (lo, hi, step, persist)
-    for T, Td, speed, pressure, then vane persist, late_s, gap_s, dewpoint excess, gust max,
-    reset gap, gate constants (FAST, SLOW, WANDER, K2, FLOOR_T, FLOOR_W, MIN_WANDER).
+    """The loop numba compiles (see the module docstring); qp is made by `params`.
     Returns the time of the detector's last row (NaN if it has none)."""
     RAD = math.pi / 180.0
     nan = math.nan
     FAST, SLOW, WANDER, K2, FLOOR_T, FLOOR_W, MIN_W = qp[22], qp[23], qp[24], qp[25], qp[26], qp[27], qp[28]
+    recover = qp[29]
     n = t.shape[0]
     for i in range(n):
         ti = t[i]
@@ -77,13 +78,13 @@ def _scan_py(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc
         # --- QC per quantity (frontwatch.qc._Channel.check; channel k's state at 1 + 6k)
         x_t = tc[i]
         if x_t == x_t:
-            bad = _chan(qs, 1, qp[0], qp[1], qp[2], qp[3], x_t, ti)
+            bad = _chan(qs, 1, qp[0], qp[1], qp[2], qp[3], recover, x_t, ti)
             if bad:
                 fl |= 1 << bad  # temp_range=1, temp_stuck=2, temp_step=3
                 x_t = nan
         x_d = td[i]
         if x_d == x_d:
-            bad = _chan(qs, 7, qp[4], qp[5], qp[6], qp[7], x_d, ti)
+            bad = _chan(qs, 7, qp[4], qp[5], qp[6], qp[7], recover, x_d, ti)
             if bad:
                 fl |= 1 << (3 + bad)
                 x_d = nan
@@ -97,13 +98,13 @@ def _scan_py(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc
                 qs[13] = 0.0
                 qs[14] = ti
             else:
-                bad = _chan(qs, 13, qp[8], qp[9], qp[10], qp[11], x_s, ti)
+                bad = _chan(qs, 13, qp[8], qp[9], qp[10], qp[11], recover, x_s, ti)
                 if bad:
                     fl |= 1 << (7 + bad)
                     x_s = nan
         x_p = p[i]
         if x_p == x_p:
-            bad = _chan(qs, 19, qp[12], qp[13], qp[14], qp[15], x_p, ti)
+            bad = _chan(qs, 19, qp[12], qp[13], qp[14], qp[15], recover, x_p, ti)
             if bad:
                 fl |= 1 << (10 + bad)
                 x_p = nan
@@ -128,11 +129,7 @@ def _scan_py(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc
         # --- the detector's row (StationDetector.update)
         if last_row_t == last_row_t and ti - last_row_t > qp[21]:
             reset[i] = True
-            gs[0] = gs[1] = gs[2] = gs[3] = gs[4] = gs[5] = gs[6] = gs[7] = nan
-            gs[8] = gs[9] = 0.0
-            gs[10] = gs[11] = 0.1
-            gs[12] = 0.5
-            gs[13] = 0.0
+            gs[:] = qp[30:30 + GATE_STATE_LEN]  # a fresh Gate()'s state
         last_row_t = ti
         if x_s == x_s and x_w == x_w:
             r = x_w * RAD
@@ -206,8 +203,8 @@ def _scan_py(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc
     return last_row_t
 
 
-def _chan_py(qs: np.ndarray, k: int, lo: float, hi: float, step: float, persist: float, x: float,
-             t: float) -> int:
+def _chan_py(qs: np.ndarray, k: int, lo: float, hi: float, step: float, persist: float, recover: float,
+             x: float, t: float) -> int:
     """frontwatch.qc._Channel.check on state qs[k:k+6]: 0 good, 1 range, 2 stuck, 3 step."""
     if not lo <= x <= hi:
         return 1
@@ -224,7 +221,7 @@ def _chan_py(qs: np.ndarray, k: int, lo: float, hi: float, step: float, persist:
         else:
             qs[k + 5] = 1.0
         qs[k + 4] = x
-        if qs[k + 5] < 3.0:  # frontwatch.qc._RECOVER
+        if qs[k + 5] < recover:
             return 3
     qs[k + 5] = 0.0
     qs[k] = x
@@ -240,17 +237,18 @@ else:  # pragma: no cover
     _scan = _scan_py
 
 
-def qc_params(qc: Any, gate_consts: tuple[float, ...], reset_gap_s: float) -> np.ndarray:
-    """The parameter vector of _scan_py from a StationQC (its channels hold the limits)."""
-    from .qc import _RECOVER
-
-    assert _RECOVER == 3, "scan.py's step recovery count follows frontwatch.qc._RECOVER"
+def params(qc: Any) -> np.ndarray:
+    """The parameter vector of _scan_py, from a StationQC (its channels hold the limits) and the
+    detector's own constants: per channel (lo, hi, step, persist) for T, Td, speed, pressure [0:16],
+    vane persist, late_s, gap_s, dewpoint excess, gust max, the ring's reset gap [16:22], the
+    gate's constants [22:29], the QC step recovery count [29], a fresh gate's state [30:44]."""
     s = qc.settings
     vals: list[float] = []
     for ch in (qc._t, qc._d, qc._s, qc._p):
         vals += [ch.lo, ch.hi, ch.step, ch.persist_s]
-    vals += [qc.vane.persist_s, s.late_s, s.gap_s, s.dewpoint_excess_c, s.speed_max_ms * 1.5, reset_gap_s]
-    vals += list(gate_consts)
+    vals += [qc.vane.persist_s, s.late_s, s.gap_s, s.dewpoint_excess_c, s.speed_max_ms * 1.5, RESET_GAP_S]
+    vals += [gate.FAST, gate.SLOW, gate.WANDER, gate.K2, gate.FLOOR_T, gate.FLOOR_W, gate.MIN_WANDER, _RECOVER]
+    vals += gate.Gate().state()
     return np.array(vals, dtype=np.float64)
 
 
@@ -270,9 +268,10 @@ def set_qc_state(qc: Any, st: np.ndarray) -> None:
 
 def scan(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc: np.ndarray, td: np.ndarray,
          p: np.ndarray, rain: np.ndarray, qs: np.ndarray, qp: np.ndarray, gs: np.ndarray, last_row_t: float,
-         so: float, co: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, float]:
-    """Run the scan over one station's records (arrays in its event-time order). qs and gs are
-    updated in place. Returns (rows, wind_dir, wind_speed, flags, opened, reset, last_row_t)."""
+         so: float, co: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Run the scan over one station's records (arrays in its event-time order), after a detector
+    row at `last_row_t` (NaN: none). qs and gs are updated in place. Returns (rows, wind_dir,
+    wind_speed, flags, opened, reset)."""
     n = len(t)
     rows = np.empty((n, NCOL))
     wd_out = np.empty(n)
@@ -281,7 +280,7 @@ def scan(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc: np
     opened = np.zeros(n, dtype=np.bool_)
     reset = np.zeros(n, dtype=np.bool_)
     f = np.ascontiguousarray
-    last = _scan(f(t, float), f(wd, float), f(ws, float), f(gust, float), f(tc, float), f(td, float),
+    _scan(f(t, float), f(wd, float), f(ws, float), f(gust, float), f(tc, float), f(td, float),
                  f(p, float), f(rain, float), qs, qp, gs, last_row_t, so, co, rows, wd_out, ws_out, flags,
                  opened, reset)
-    return rows, wd_out, ws_out, flags, opened, reset, float(last)
+    return rows, wd_out, ws_out, flags, opened, reset

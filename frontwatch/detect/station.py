@@ -29,8 +29,9 @@ NAN = float("nan")
 RAD = math.pi / 180.0
 # Row layout in the ring: time, T, Td, onshore, alongshore, p, u, v, gust, rain
 _T, _TC, _TD, _ON, _AL, _P, _U, _V, _G, _R = range(10)
-_NCOL = 10
+NCOL = 10  # columns of a ring row (frontwatch.scan writes rows of the same layout)
 WEIGHTS = np.array([1.0, 1.0, 1.0, 0.7, 0.5])
+MIN_ROWS = 20  # rows the window needs before any evaluation
 RESET_GAP_S = 60 * 60.0  # after a silence this long the window restarts (a shorter gap is bridged: a front that passed during it shows as a change across it)
 
 
@@ -101,13 +102,19 @@ class StationDetector:
         on = -(u * so + v * co)
         al = -u * co + v * so
         ring.append((t, obs.temp_c, obs.dewpoint_c, on, al, obs.pressure_hpa, u, v, obs.wind_gust_ms, obs.rain_mm))
-        opened = self.gate.update(obs.temp_c, obs.dewpoint_c, u, v)
-        if (opened or self.pending) and len(ring) >= 20 and \
-                t - (self.settings.confirm_min - 1) * 60.0 >= self.quiet_until:
+        if self.gate.update(obs.temp_c, obs.dewpoint_c, u, v) or self.pending:
             with warnings.catch_warnings():
                 warnings.simplefilter("ignore", RuntimeWarning)  # empty slices of all-missing channels
-                return self._evaluate(t)
+                return self.evaluate_if_due(len(ring), t)
         return None
+
+    def evaluate_if_due(self, n_rows: int, t: float, arr: np.ndarray | None = None) -> PassageEvent | None:
+        """Score and decide at `t` (the gate opened or a candidate is pending) once the window holds
+        MIN_ROWS rows and the quiet time after the last event is over. update() calls it, and
+        frontwatch.batch with the window as an array."""
+        if n_rows < MIN_ROWS or t - (self.settings.confirm_min - 1) * 60.0 < self.quiet_until:
+            return None
+        return self._evaluate(t, arr)
 
     # ------------------------------------------------------------------ scoring and deciding
     def _evaluate(self, now: float, arr: np.ndarray | None = None) -> PassageEvent | None:
@@ -117,7 +124,7 @@ class StationDetector:
         from_ring = arr is None
         if arr is None:
             ring = self.ring
-            arr = np.fromiter(itertools.chain.from_iterable(ring), float, len(ring) * _NCOL).reshape(len(ring), _NCOL)
+            arr = np.fromiter(itertools.chain.from_iterable(ring), float, len(ring) * NCOL).reshape(len(ring), NCOL)
         t = arr[:, _T]
         x = arr[:, _TC:_P + 1]
         # The windows are set in minutes for per-minute records; a station reporting less often

@@ -33,7 +33,7 @@ UNIT_FIELDS: dict[str, dict[str, Callable[[float], float]]] = {
 }
 PLAIN_FIELDS = ("wind_dir_deg", "rh_pct", "rain_mm")
 CANONICAL = ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms", "temp_c", "dewpoint_c", "pressure_hpa", "rain_mm")
-CANONICAL_IDENTITY = frozenset(CANONICAL) | {"rh_pct"}
+CANONICAL_IDENTITY = frozenset(CANONICAL) | frozenset(PLAIN_FIELDS)  # names read as they are
 
 
 def _identity(x: float) -> float:
@@ -48,8 +48,6 @@ def split_unit(name: str) -> tuple[str, Callable[[float], float]] | None:
     """
     if name in CANONICAL_IDENTITY:
         return name, _identity
-    if name in PLAIN_FIELDS:
-        return name, lambda x: x
     base, _, suffix = name.rpartition("_")
     conv = UNIT_FIELDS.get(base, {}).get(suffix)
     if conv is None:
@@ -79,11 +77,11 @@ class Observation(NamedTuple):
     pressure_hpa: float = NAN
     rain_mm: float = NAN
 
-    def to_record(self) -> dict[str, Any]:
-        """The canonical JSON record (DESIGN 3.1); missing values are null."""
-        out: dict[str, Any] = {"station": self.station, "time": iso_z(self.time)}
-        for f in CANONICAL:
-            v = getattr(self, f)
+    def to_record(self, time_text: str | None = None) -> dict[str, Any]:
+        """The canonical JSON record (DESIGN 3.1); missing values are null. `time_text`: the time's
+        ISO text when the caller has it already (many stations share each minute's)."""
+        out: dict[str, Any] = {"station": self.station, "time": iso_z(self.time) if time_text is None else time_text}
+        for f, v in zip(CANONICAL, self[2:], strict=True):  # the fields after station and time, in order
             out[f] = None if v != v else round(v, 3)
         return out
 

@@ -26,7 +26,7 @@ from typing import Any
 
 from ..config import NetworkConfig
 from ..errors import ConfigError
-from ..obs import CANONICAL, Observation
+from ..obs import Observation
 from ..timeutil import iso_z, parse_time
 
 NAN = float("nan")
@@ -201,35 +201,17 @@ class DashboardHub:
     # --- fed by the service -------------------------------------------------------------------
     def observe(self, obs: Observation, flags: list[str] | tuple[str, ...] = ()) -> None:
         """One observation as received (before or after QC) with the QC flags it got."""
-        if obs.station not in self._ids:
-            self.ignored += 1
-            return
-        rec = obs.to_record()
-        if flags:
-            rec["qc"] = list(flags)
-            self.qc_trouble[obs.station] = self.qc_trouble.get(obs.station, 0) + len(flags)
-            q = self.qc_recent.setdefault(obs.station, deque(maxlen=10))
-            for f in flags:
-                q.append((obs.time, str(f)))
-        with self._lock:
-            self.latest[obs.station] = rec
-            self.received_wall[obs.station] = time.time()
-            if self.data_time is None or obs.time > self.data_time:
-                self.data_time = obs.time
-            self.series[obs.station].append(
-                (obs.time, obs.temp_c, obs.dewpoint_c, obs.wind_speed_ms, obs.wind_gust_ms, obs.wind_dir_deg))
-        self._push("obs", rec)
+        self.observe_many(((obs, flags),))
 
     def observe_many(self, items: Iterable[tuple[Observation, list[str] | tuple[str, ...]]]) -> None:
         """observe() for several records at once (one lock, one wake-up; what the service uses).
 
-        The same effect as observe() on each in turn; the record is built here rather than by
-        Observation.to_record, with the time text shared by records of the same minute."""
+        Each is the record Observation.to_record gives, with the time text shared by records of
+        the same minute."""
         ids = self._ids
         now = time.time()
         pushed: list[tuple[str, str]] = []
         times = self._iso_cache
-        canon = CANONICAL
         for obs, flags in items:
             st = obs.station
             if st not in ids:
@@ -241,9 +223,7 @@ class DashboardHub:
                 if len(times) > 256:
                     times.clear()
                 ts = times[t] = iso_z(t)
-            rec: dict[str, Any] = {"station": st, "time": ts}
-            for f, v in zip(canon, obs[2:], strict=True):
-                rec[f] = None if v != v else round(v, 3)
+            rec = obs.to_record(ts)
             if flags:
                 rec["qc"] = list(flags)
                 self.qc_trouble[st] = self.qc_trouble.get(st, 0) + len(flags)

@@ -25,23 +25,18 @@ import math
 from dataclasses import replace
 from typing import Any
 
+from ..calc.density import BREEZE_FRONT_SPEEDS_MS
 from ..calc.geo import local_xy_m
-from ..config import DetectorSettings, NetworkConfig
+from ..config import NetworkConfig
 from ..events import PassageEvent
 
 COAST_MARGIN_KM = 2.0
 SAME_SHORE_DEG = 30.0
-# Front speeds a weak inland call may imply. Observed inland speeds: about 1.4 m/s on average for a
-# lake-breeze front (Keeler & Kristovich 2012), under 3 to over 6 m/s for sea-breeze fronts (Linacre &
-# Geerts 1997); the density-current speed k sqrt(g' h) with 5 K and 1 km stays near 10 m/s (Benjamin
-# 1968). The bounds are generous on both sides (from memory): they only rule out the impossible.
-MIN_FRONT_MS = 0.5
-MAX_FRONT_MS = 10.0
+MIN_FRONT_MS, MAX_FRONT_MS = BREEZE_FRONT_SPEEDS_MS  # front speeds a weak inland call may imply
 WEAK_ONSHORE_MS = 1.0  # onshore flow below which a breeze front's wind alone is not convincing
 
 
-def is_weak(ev: PassageEvent, onshore_from_deg: float, halfwidth_deg: float, s: DetectorSettings,
-            coastal: bool = False) -> bool:
+def is_weak(ev: PassageEvent, onshore_from_deg: float, halfwidth_deg: float, coastal: bool = False) -> bool:
     """True when a breeze-front event's signature is below what stands on its own. The classifier's
     paths that accept less (classify.py) leave these marks in the event: under 1 m/s of onshore flow
     ('halted_offshore', or 'air_only' under a stuck vane); no usable wind after
@@ -58,7 +53,6 @@ def is_weak(ev: PassageEvent, onshore_from_deg: float, halfwidth_deg: float, s: 
 
 class Corroborator:
     def __init__(self, config: NetworkConfig) -> None:
-        self.settings = config.detector
         self.hours = config.detector.corroborate_hours
         sts = config.stations
         lat0 = sum(s.lat for s in sts) / len(sts) if sts else 0.0
@@ -92,28 +86,29 @@ class Corroborator:
     def check(self, ev: PassageEvent) -> PassageEvent:
         if ev.kind != "breeze_front" or self.hours <= 0:
             return ev
-        others = [t for k, t in self.last_seen.items() if k != ev.station]
+        # another station's breeze-like call within the hours before this one
+        recent = any(0 <= ev.onset - t <= self.hours * 3600.0 for k, t in self.last_seen.items() if k != ev.station)
         coastal = self.coastal.get(ev.station, True)
-        if ev.station in self.onshore and is_weak(ev, *self.onshore[ev.station], self.settings, coastal):
+        if ev.station in self.onshore and is_weak(ev, *self.onshore[ev.station], coastal):
             # A weak call inland must fit a front travelling from the water; at the shore (no station
             # nearer the water) it needs another station's front within the hours, like a strong
             # inland call. Unconfirmed, it marks nothing as seen.
-            if self._travelled(ev) if not coastal else \
-                    any(0 <= ev.onset - t <= self.hours * 3600.0 for t in others):
+            if recent if coastal else self._travelled(ev):
                 self.last_seen[ev.station] = ev.onset
                 return ev
-            return replace(ev, kind="wind_shift", confidence=round(min(ev.confidence, 0.5), 3),
-                           note="weak breeze-like change with no front seen nearer the coast in time to reach it")
+            return _demoted(ev, "weak breeze-like change with no front seen nearer the coast in time to reach it")
         self.last_seen[ev.station] = ev.onset
-        if coastal:
+        if coastal or recent:
             return ev
-        if any(0 <= ev.onset - t <= self.hours * 3600.0 for t in others):
-            return ev
-        return replace(ev, kind="wind_shift", confidence=round(min(ev.confidence, 0.5), 3),
-                       note="breeze-like change inland with no breeze front seen nearer the coast")
+        return _demoted(ev, "breeze-like change inland with no breeze front seen nearer the coast")
 
     def snapshot(self) -> dict[str, Any]:
         return {"last_seen": dict(self.last_seen)}
 
     def restore(self, snap: dict[str, Any]) -> None:
         self.last_seen = {k: float(v) for k, v in snap["last_seen"].items()}
+
+
+def _demoted(ev: PassageEvent, note: str) -> PassageEvent:
+    """A breeze-front call the network did not confirm: reported as a wind shift, saying why."""
+    return replace(ev, kind="wind_shift", confidence=round(min(ev.confidence, 0.5), 3), note=note)

@@ -17,6 +17,7 @@ from typing import Any
 
 import numpy as np
 
+from ..calc.density import BREEZE_FRONT_SPEEDS_MS
 from ..events import PassageEvent
 from ..timeutil import compact_z
 from .fit import FrontFit, fit_front
@@ -26,7 +27,7 @@ JOIN_TOL_S = 20 * 60.0  # an onset this close to the prediction (or 3 sd) joins 
 JOIN_SIGMAS = 3.0
 JOIN_TOL_MAX_S = 60 * 60.0
 JOIN_MODEL_REL_ERR = 0.12  # as forecast.MODEL_REL_ERR  # however uncertain the prediction (a prior far from its station), no more
-JOIN_SPEED_MS = (0.5, 10.0)  # speeds a breeze front may have between two stations (see _prior_join)
+JOIN_SPEED_MS = BREEZE_FRONT_SPEEDS_MS  # speeds a breeze front may have between two stations (see _prior_join)
 JOIN_MIN_DQ_M = 2000.0  # ... when the new station is at least this much further along the motion
 LINK_M = 60_000.0  # a joining station is at most this far from one already in the front
 OVERDUE_MIN_S = 15 * 60.0  # a station is overdue this long (or 2.5 sd) after its predicted time

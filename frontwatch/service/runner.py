@@ -422,10 +422,7 @@ class Service:
                 refused[err.code] = refused.get(err.code, 0) + 1
             if not obs:
                 continue
-            if len(obs) == 1:
-                if obs[0].station in known:
-                    journal.append((item.topic, item.payload))
-            elif any(o.station in known for o in obs):
+            if any(o.station in known for o in obs):
                 journal.append((item.topic, item.payload))
             n_rec += len(obs)
             t0 = perf()

@@ -1,21 +1,30 @@
-"""Station-major replay: the outputs of Engine.feed record by record, computed station by station.
+"""Station-major processing: the outputs of Engine.feed record by record, computed station by station.
 
-An offline replay holds every record at once, so each station's series goes through QC, the wind
-conversion and the gate in one compiled scan (frontwatch.scan), and the full change-point
-evaluation (Python, the same StationDetector._evaluate the live path runs) only on the minutes the
-gate opens or a candidate is pending. The stations' events are then put back in stream order
-(the record that emitted each one) and go through the network steps (corroboration, the site
-watch) exactly as Engine.feed would pass them, with the site watch fed only the records that can
-change what it says (its own stations' records, minute boundaries, events), its 'last seen' times
-brought up to date before each. The outputs, statistics and final engine state equal the
-record-by-record path's; tests/test_core_batch.py checks it on every generated preset.
+Given a chunk of records at once (a whole file offline; a gateway message or what waits in the
+live service's queue), each station's records go through QC, the wind conversion and the gate in
+one compiled scan (frontwatch.scan), and the full change-point evaluation (Python, the same
+StationDetector._evaluate the record path runs) only on the records where the gate opens or a
+candidate is pending. The stations' events are then put back in stream order (the record that
+emitted each one) and go through the network steps (corroboration, the site watch) exactly as
+Engine.feed would pass them, with the site watch fed only the records that can change what it
+says (its own stations' records, records that start a new data minute, events), its 'last seen'
+times brought up to date before each.
+
+The engine may hold state from earlier records (a restored snapshot, earlier chunks) and the
+records need not be in time order: QC refuses late, out-of-order and duplicate records per
+station as it does record by record, each station's records keep their stream order, and a data
+minute starts where a record's minute passes the largest minute seen so far. The outputs, their
+order, the statistics and the final engine state equal the record-by-record path's:
+tests/test_core_batch.py (whole files) and tests/test_core_feedmany.py (chunks on a carried
+state, messy input) check it.
 """
 
 from __future__ import annotations
 
+import warnings
 from bisect import bisect_right
 from collections import deque
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
@@ -23,7 +32,7 @@ import pandas as pd
 
 from . import scan as scanmod
 from .detect.gate import Gate
-from .detect.station import StationDetector
+from .detect.station import NCOL, StationDetector
 from .engine import MAX_UNKNOWN, Engine, Output
 from .events import PassageEvent
 from .obs import Observation
@@ -31,20 +40,47 @@ from .obs import Observation
 _FIELDS = ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms", "temp_c", "dewpoint_c", "pressure_hpa", "rain_mm")
 
 
+def available() -> bool:
+    """The batch path needs the compiled scan (numba)."""
+    return scanmod.available()
+
+
 def usable(eng: Engine, times: np.ndarray) -> bool:
-    """The batch path applies to a fresh engine over records in time order (what merge() gives)."""
-    if not scanmod.available():
-        return False
-    if eng.stats.records or any(d.ring for d in eng.detectors.values()):
-        return False
-    if eng.watch is not None and eng.watch.minute != -1:
-        return False
-    return bool(len(times) < 2 or np.all(times[1:] >= times[:-1]))
+    """Whether run() applies: wherever the compiled scan is available (any engine state, any order)."""
+    return scanmod.available()
+
+
+def columns_of(records: Sequence[Observation]) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+    """Observations -> (station ids as an object array, canonical columns incl. 'time')."""
+    if not records:
+        return np.empty(0, dtype=object), {k: np.empty(0) for k in ("time", *_FIELDS)}
+    cols = list(zip(*records, strict=True))
+    station = np.empty(len(records), dtype=object)
+    station[:] = cols[0]
+    out = {"time": np.array(cols[1], dtype=float)}
+    for k, c in zip(_FIELDS, cols[2:], strict=True):
+        out[k] = np.array(c, dtype=float)
+    return station, out
 
 
 def run(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
         progress: Callable[[int], None] | None = None) -> list[Output]:
-    """Feed all records (station ids, canonical columns; in time order) through `eng`; its outputs."""
+    """Feed all records (station ids, canonical columns; in stream order) through `eng`; its outputs."""
+    return [o for _, o in run_indexed(eng, station, columns, progress)]
+
+
+def run_indexed(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
+                progress: Callable[[int], None] | None = None,
+                qc_flags: dict[str, list[str]] | None = None) -> list[tuple[int, Output]]:
+    """run() with each output paired with the index of the record that caused it. With `qc_flags`,
+    each known station's QC flag names of these records (record by record, in order) are added to it."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # empty slices of all-missing channels (as update())
+        return _run(eng, station, columns, progress, qc_flags)
+
+
+def _run(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
+         progress: Callable[[int], None] | None, qc_flags: dict[str, list[str]] | None) -> list[tuple[int, Output]]:
     n = len(station)
     nan = np.full(n, np.nan)
     cols = {k: np.asarray(columns.get(k, nan), dtype=float) for k in _FIELDS}
@@ -70,12 +106,15 @@ def run(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
         q, det = pair
         qs = scanmod.qc_state(q)
         gs = np.array(det.gate.state(), dtype=float)
+        last_row_t = det.ring[-1][0] if det.ring else np.nan
         rows, wd, ws, flags, opened, reset = scanmod.scan(
             times[pos], cols["wind_dir_deg"][pos], cols["wind_speed_ms"][pos], cols["wind_gust_ms"][pos],
             cols["temp_c"][pos], cols["dewpoint_c"][pos], cols["pressure_hpa"][pos], cols["rain_mm"][pos],
-            qs, scanmod.params(q), gs, np.nan, det._sin_o, det._cos_o)
+            qs, scanmod.params(q), gs, last_row_t, det._sin_o, det._cos_o)
         scanmod.set_qc_state(q, qs)
         _count_flags(stats.qc, flags)
+        if qc_flags is not None and flags.any():
+            qc_flags.setdefault(sid, []).extend(_flag_names(flags))
         ok = (flags & scanmod.REFUSED_BITS) == 0
         acc = pos[ok]
         used[acc] = True
@@ -114,63 +153,91 @@ def _count_flags(counter: Any, flags: np.ndarray) -> None:
             counter[name] += c
 
 
+def _flag_names(flags: np.ndarray) -> list[str]:
+    """The flag names of each flagged record, record by record (bits in StationQC.check's order)."""
+    names: list[str] = []
+    for f in flags[flags != 0].tolist():
+        names.extend(name for b, name in enumerate(scanmod.FLAG_NAMES) if f & (1 << b))
+    return names
+
+
 def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: np.ndarray,
             gpos: np.ndarray) -> list[tuple[int, PassageEvent]]:
-    """StationDetector.update's decisions over a station's scanned rows: where the gate opened or
-    a candidate is pending, its evaluate_if_due; leave the detector in the state record-by-record
-    feeding would leave it."""
-    n = len(rows)
+    """StationDetector.update's decisions over a station's new scanned rows (after the rows its
+    ring holds already): where the gate opened or a candidate is pending, its evaluate_if_due;
+    leave the detector in the state record-by-record feeding would leave it."""
+    n_new = len(rows)
     maxlen = det.maxlen
-    tl = rows[:, 0].tolist()
-    cand = np.flatnonzero(opened).tolist()
-    seg = np.flatnonzero(reset).tolist()  # indices where the ring restarted
+    ring = det.ring
     out: list[tuple[int, PassageEvent]] = []
-    j = 0  # next candidate in cand
-    i = -1
-    while True:
-        if det.pending and i + 1 < n:
-            i += 1
+    if n_new and (det.pending or opened.any()):
+        # The windows reach back into the rows held from before: put them in front (index `base`
+        # is the first new row; nothing before it is a candidate or a restart).
+        base = len(ring)
+        if base:
+            rows_all = np.concatenate([np.array(ring, dtype=float).reshape(base, NCOL), rows])
+            opened = np.concatenate([np.zeros(base, dtype=bool), opened])
+            reset = np.concatenate([np.zeros(base, dtype=bool), reset])
         else:
-            while j < len(cand) and cand[j] <= i:
-                j += 1
-            if j >= len(cand):
+            rows_all = rows
+        n = len(rows_all)
+        tl = rows_all[:, 0].tolist()
+        cand = np.flatnonzero(opened).tolist()
+        seg = np.flatnonzero(reset).tolist()  # indices where the ring restarted
+        j = 0  # next candidate in cand
+        i = base - 1
+        while True:
+            if det.pending and i + 1 < n:
+                i += 1
+            else:
+                while j < len(cand) and cand[j] <= i:
+                    j += 1
+                if j >= len(cand):
+                    break
+                i = cand[j]
+            if reset[i]:
+                det.pending = False
+                if not opened[i]:
+                    continue
+            k = bisect_right(seg, i)
+            start = seg[k - 1] if k else 0
+            length = min(maxlen, i - start + 1)
+            ev = det.evaluate_if_due(length, tl[i], rows_all[i - length + 1:i + 1].copy())
+            if ev is not None:
+                out.append((int(gpos[i - base]), ev))
+            if i + 1 >= n:
                 break
-            i = cand[j]
-        if reset[i]:
-            det.pending = False
-            if not opened[i]:
-                continue
-        k = bisect_right(seg, i)
-        start = seg[k - 1] if k else 0
-        length = min(maxlen, i - start + 1)
-        ev = det.evaluate_if_due(length, tl[i], rows[i - length + 1:i + 1].copy())
-        if ev is not None:
-            out.append((int(gpos[i]), ev))
-        if i + 1 >= n:
-            break
-    if n:
-        start = seg[-1] if seg else 0
-        det.ring = deque(map(tuple, rows[max(start, n - maxlen):].tolist()), maxlen=maxlen)
+    if n_new:
+        restarts = np.flatnonzero(reset)
+        if len(restarts):
+            start = int(restarts[-1])
+            det.ring = ring = deque(maxlen=maxlen)
+        else:
+            start = 0
+        ring.extend(map(tuple, rows[max(start, n_new - maxlen):].tolist()))
     return out
 
 
 def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray, ids: np.ndarray,
              times: np.ndarray, used: np.ndarray, cols: dict[str, np.ndarray],
-             clean: dict[str, np.ndarray]) -> list[Output]:
+             clean: dict[str, np.ndarray]) -> list[tuple[int, Output]]:
     """Corroboration and the site watch over the events in stream order (Engine.feed's tail)."""
     watch = eng.watch
     if watch is None:
-        return [eng.network_event(e) for _, e in raw]
-    out: list[Output] = []
+        return [(g, eng.network_event(e)) for g, e in raw]
+    out: list[tuple[int, Output]] = []
     upos = np.flatnonzero(used)
     ut = times[upos]
     ucode = codes[upos]
     ust = ids[ucode]
-    # Records the watch must see: its own stations', the first of each new minute, the events'.
+    # Records the watch must see: its own stations', those whose data minute passes the largest
+    # one before them (a superset of the watch's minute ticks: the loop checks its clock too), the
+    # events'.
     watched = np.isin(ucode, [k for k, sid in enumerate(ids.tolist()) if sid in watch._watched])
     minute = np.floor_divide(ut, 60.0)
     new_minute = np.ones(len(ut), dtype=bool)
-    new_minute[1:] = minute[1:] > minute[:-1]
+    if len(ut) > 1:
+        new_minute[1:] = minute[1:] > np.maximum.accumulate(minute)[:-1]
     ev_at: dict[int, PassageEvent] = dict(raw)
     ev_mask = np.isin(upos, np.fromiter(ev_at, dtype=np.int64, count=len(ev_at)))
     calls = np.flatnonzero(watched | new_minute | ev_mask).tolist()
@@ -193,8 +260,8 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
         o = _obs(ust_l[ci], t, g, cols, clean)
         if ev is not None:
             ev = eng.network_event(ev)
-            out.append(ev)
-        out.extend(watch.observe(o, ev))
+            out.append((g, ev))
+        out.extend((g, x) for x in watch.observe(o, ev))
     if synced < len(ut_l):
         last_seen.update(zip(ust_l[synced:], ut_l[synced:], strict=True))
     return out

@@ -134,3 +134,19 @@ def test_arrived_then_clear_and_snapshot() -> None:
         assert x.step(NOW + 1900, None) is None
         c = x.step(NOW + 1700 + 46 * 60, None)
         assert c is not None and c.state == "clear" and c.urgency == "Past"
+
+
+def test_a_front_past_its_eta_is_not_called_imminent() -> None:
+    """The ETA passes with no passage at the site (a late front, maybe stalled short of it): the
+    alert stays 'approaching' rather than turning 'imminent'; the passage still gives 'arrived'."""
+    a = SiteAlerts(SITE, station="S30")
+    eta = NOW + 50 * 60
+    first = a.step(NOW, _fc(NOW, 50), last_seen=NOW)
+    assert first is not None and first.state == "approaching"
+    # Jump past the ETA without a tick inside the 20 min before it: 5 min late, interval late end near.
+    late = eta + 5 * 60
+    m = a.step(late, replace(_fc(late, -5), eta=eta, eta_earliest=eta, eta_latest=eta + 600), last_seen=late)
+    assert m is None and a.state == "approaching"
+    arr = replace(_fc(late + 600, 0), status="arrived", eta=late + 540, eta_earliest=None, eta_latest=None)
+    m = a.step(late + 600, arr, last_seen=late + 600)
+    assert m is not None and m.state == "arrived"

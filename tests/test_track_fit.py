@@ -124,6 +124,57 @@ def test_accelerated_eta_hand_worked() -> None:
     assert accelerated_eta(0.0, 3600.0, 0.0) == 3600.0
 
 
+def test_accelerated_eta_stops_at_the_end_hour_hand_worked() -> None:
+    """Hand-worked: a = 0.2 per hour, the speed-up ends 1 h after t_ref (speed then 1.2 v). In that
+    hour the front covers 1 + 0.2 / 2 = 1.1 constant-speed hours; of 3 constant-speed hours the
+    other 1.9 take 1.9 / 1.2 = 1.5833 h: arrival 2.5833 h after t_ref. An end at or before t_ref
+    means no speed-up at all; an end beyond the cap (5 h for 2 x) changes nothing."""
+    from frontwatch.network.fit import accelerated_eta
+
+    h = 3600.0
+    assert accelerated_eta(0.0, 3 * h, 0.2, 2.0, until=1 * h) == pytest.approx((1.0 + 1.9 / 1.2) * h, rel=1e-12)
+    assert pytest.approx(2.5833, abs=1e-4) == 1.0 + 1.9 / 1.2
+    assert accelerated_eta(0.0, 3 * h, 0.2, 2.0, until=-h) == 3 * h
+    assert accelerated_eta(0.0, 3 * h, 0.2, 2.0, until=0.0) == 3 * h
+    assert accelerated_eta(0.0, 10 * h, 0.2, 2.0, until=8 * h) == accelerated_eta(0.0, 10 * h, 0.2, 2.0)
+    # Within the speed-up hour the end changes nothing: 1 constant-speed hour takes 0.9161 h.
+    assert accelerated_eta(0.0, 1 * h, 0.2, 2.0, until=0.95 * h) == pytest.approx(accelerated_eta(0.0, h, 0.2, 2.0))
+
+
+def test_fit_carries_the_speed_up_end_into_its_forecast() -> None:
+    """Two stations 10 km apart along a front moving west 3420 s apart (2.92 m/s): the forecast 20 km
+    beyond the second one with the speed-up ended at the second passage is the constant-speed one."""
+    pts = [(0.0, 0.0, 0.0), (-10_000.0, 0.0, 3420.0)]
+    prior = Prior(speed_ms=2.0, heading_deg=270.0, speed_rel_sd=1.0, heading_sd_deg=20.0)
+    free = fit_front(pts, prior)
+    ended = fit_front(pts, prior, accel_until=1710.0)  # the fit's t_ref: the mean passage time
+    assert free is not None and ended is not None
+    t_acc, t_lin, _ = free.predict(-30_000.0, 0.0)
+    e_acc, e_lin, _ = ended.predict(-30_000.0, 0.0)
+    assert t_acc < t_lin  # without an end the front speeds up
+    assert e_lin == pytest.approx(t_lin)
+    assert e_acc == pytest.approx(e_lin)
+
+
+def test_two_stations_far_along_the_coast_set_the_speed_not_the_prior() -> None:
+    """A second station 10 km further inland and 22 km along the coast reports 3420 s after the first
+    (2.92 m/s along the shore normal, 270 deg). The prior says 1.07 m/s (a density-current guess
+    from a small temperature drop). With the prior's speed sd at its mean (prior.SPEED_REL_SD) the
+    fit's speed lies nearer the observed one than the prior's, and the heading stays within the
+    prior's 20 deg, rather than keeping the prior's speed by turning the front."""
+    from frontwatch.network.prior import HEADING_SD_DEG, SPEED_REL_SD
+
+    pts = [(0.0, 0.0, 0.0), (-10_000.0, 22_000.0, 3420.0)]
+    f = fit_front(pts, Prior(speed_ms=1.07, heading_deg=270.0, speed_rel_sd=SPEED_REL_SD,
+                             heading_sd_deg=HEADING_SD_DEG))
+    assert f is not None and f.used_prior
+    assert abs(f.speed_ms - 2.92) < abs(f.speed_ms - 1.07)
+    assert abs((f.heading_deg - 270.0 + 180.0) % 360.0 - 180.0) < HEADING_SD_DEG
+    # The old, tighter speed prior (0.7) kept the speed nearer the prior's: the case this guards.
+    tight = fit_front(pts, Prior(speed_ms=1.07, heading_deg=270.0, speed_rel_sd=0.7, heading_sd_deg=HEADING_SD_DEG))
+    assert tight is not None and tight.speed_ms < f.speed_ms
+
+
 def test_fitted_acceleration_term() -> None:
     """Nine stations on a front moving east whose arrival time is t = q / 2 - 2e-6 q^2 (q metres
     east): it speeds up. The fit finds the quadratic term, reports the speed at the furthest station

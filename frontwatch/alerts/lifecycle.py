@@ -5,6 +5,7 @@ cancelled when the front will not come. One episode (one front at one site) has 
 every message of it has a sequence number and references the previous message. A state is left
 only for a later one, except imminent -> approaching, which needs the ETA to move well out again
 (IMMINENT_EXIT_S against IMMINENT_S: the hysteresis band), so a wobbling forecast does not flap.
+'Imminent' is entered only while the ETA is still ahead (a late front may have stalled).
 Same-state updates go out when the ETA moves by UPDATE_ETA_S or the thresholds exceeded change,
 no more often than UPDATE_MIN_GAP_S. All times are data time.
 """
@@ -207,8 +208,12 @@ class SiteAlerts:
         if fc.status != EXPECTED or fc.eta is None:
             return st
         lead = fc.eta - now
-        # 'Imminent' needs the interval too: even its late end within IMMINENT_MAX_LATE_S.
-        soon = lead <= IMMINENT_S and (fc.eta_latest is None or fc.eta_latest - now <= IMMINENT_MAX_LATE_S)
+        # 'Imminent' needs the interval too: even its late end within IMMINENT_MAX_LATE_S; and the
+        # ETA still ahead: a front past its ETA and not yet seen here is late, which is no sign that
+        # it is about to come (it may have stalled short of the site). The alert then stays as it
+        # is until the passage ('arrived') or the 'overdue' verdict ('cancelled'; a front that
+        # comes after all opens a new alert, so no real arrival is lost).
+        soon = 0.0 <= lead <= IMMINENT_S and (fc.eta_latest is None or fc.eta_latest - now <= IMMINENT_MAX_LATE_S)
         if st in (None, CLEAR, CANCELLED):
             # A first alert waits while stations short of the site are still to report (a stall
             # short of the site shows there first), and for the ETA to be close enough.

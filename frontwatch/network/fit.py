@@ -47,7 +47,9 @@ MAX_SPEED_MS = 10.0
 # Fronts speed up through the day: "from under 3 to over 6 m/s" (Linacre & Geerts 1997). Reading
 # that as a doubling over about five hours gives 0.2 per hour (the rate is from memory, not a
 # published figure); capped at 2 times. Used where the data do not show the acceleration yet
-# (fits without the fitted acceleration term).
+# (fits without the fitted acceleration term). The speed-up lasts only while the land-sea contrast
+# that drives the breeze still grows: it stops at a local clock hour (ACCEL_END_H, set by the
+# caller: see track.ACCEL_END_LOCAL_H), after which the front is taken to keep its speed.
 ACCEL_PER_H = 0.2
 ACCEL_MAX_FACTOR = 2.0
 
@@ -82,6 +84,8 @@ class FrontFit:
     curv: float = 0.0
     u: tuple[float, float] = (0.0, 1.0)
     q_span: tuple[float, float] = (0.0, 0.0)
+    # Data time after which the assumed speed-up stops (None: only the ACCEL_MAX_FACTOR cap).
+    accel_until: float | None = None
 
     def _q2(self, q: float) -> float:
         lo, hi = self.q_span
@@ -128,7 +132,7 @@ class FrontFit:
         The speed-up is the fitted acceleration term when there is one, else the assumed rate of
         `accelerated_eta`."""
         t, sd = self.arrival(x, y)
-        return (t if self.curv else accelerated_eta(self.t0, t)), t, sd
+        return (t if self.curv else accelerated_eta(self.t0, t, until=self.accel_until)), t, sd
 
     def progress(self, x: float, y: float) -> float:
         """Distance (m) of (x, y) along the direction of motion, from the reference point."""
@@ -190,12 +194,14 @@ def fit_front(
     points: list[tuple[float, float, float]],
     prior: Prior | None = None,
     onset_sigma_s: float = ONSET_SIGMA_S,
+    accel_until: float | None = None,
 ) -> FrontFit | None:
     """Fit arrival times `points` = [(x, y, t), ...] (m, m, epoch s).
 
     Pure least squares when there are >= 3 stations spread in two dimensions and the result is well
     determined; otherwise the prior is combined with the data (None is returned without one). The
-    residual sd is floored at `onset_sigma_s`.
+    residual sd is floored at `onset_sigma_s`. `accel_until` ends the assumed speed-up (see
+    accelerated_eta).
     """
     n = len(points)
     if n == 0:
@@ -226,7 +232,7 @@ def fit_front(
     if not use_prior and n >= CURV_MIN_STATIONS:
         curved = _fit_curved(arr, ref, tref, beta, onset_sigma_s)
         if curved is not None:
-            return curved
+            return curved  # its own acceleration term: accel_until does not apply
     return FrontFit(
         t0=tref + float(beta[0]),
         sx=float(beta[1]),
@@ -236,6 +242,7 @@ def fit_front(
         n=n,
         residual_rms_s=rms,
         used_prior=use_prior,
+        accel_until=accel_until,
     )
 
 
@@ -327,21 +334,24 @@ def _fit_curved(arr: np.ndarray, ref: np.ndarray, tref: float, beta: np.ndarray,
 
 
 def accelerated_eta(t_ref: float, eta_const: float, accel_per_h: float = ACCEL_PER_H,
-                    max_factor: float = ACCEL_MAX_FACTOR) -> float:
+                    max_factor: float = ACCEL_MAX_FACTOR, until: float | None = None) -> float:
     """Arrival time of a front that speeds up, from the constant-speed arrival time.
 
     The constant-speed fit gives the front's speed v at t_ref (the mean time of the passages it
     used) and a travel time d = eta_const - t_ref at that speed. With speed v (1 + a tau), tau the
     time since t_ref, the distance v d is covered when tau + a tau^2 / 2 = d, so
-    tau = (sqrt(1 + 2 a d) - 1) / a; the speed-up stops at max_factor times v. Before t_ref
-    (upstream of the passages) nothing changes.
+    tau = (sqrt(1 + 2 a d) - 1) / a. The speed-up stops at max_factor times v, or at data time
+    `until` if that comes first (at t_ref or before it: no speed-up); the front then keeps the
+    speed it has reached. Before t_ref (upstream of the passages) nothing changes.
     """
     d = eta_const - t_ref
     a = accel_per_h / 3600.0
     if d <= 0.0 or a <= 0.0:
         return eta_const
     tau_cap = (max_factor - 1.0) / a
+    if until is not None:
+        tau_cap = min(tau_cap, max(until - t_ref, 0.0))
     d_cap = tau_cap + a * tau_cap * tau_cap / 2.0
-    if d > d_cap:  # past the cap: on at the capped speed
-        return t_ref + tau_cap + (d - d_cap) / max_factor
+    if d > d_cap:  # past the end of the speed-up: on at the speed reached
+        return t_ref + tau_cap + (d - d_cap) / (1.0 + a * tau_cap)
     return t_ref + (math.sqrt(1.0 + 2.0 * a * d) - 1.0) / a

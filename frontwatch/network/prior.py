@@ -23,7 +23,13 @@ MIN_DROP_K = 0.5  # a passage with less visible cooling still moves: floor on dt
 MIN_SPEED_MS = 1.0  # a front still coming moves about this fast or more (lake-breeze fronts averaged
 # 1.4 m/s, Keeler & Kristovich 2012); a strong opposing wind can push the formula below it
 MAX_SPEED_MS = 8.0
-SPEED_REL_SD = 0.7  # wide: h and k are guesses
+# The prior's speed is a guess good to a factor of two or so (h and k are not observed): its sd on
+# the slowness equals its mean, so that once two stations apart along the motion have reported,
+# their arrival times set the speed. (With 0.7 a two-station fit could turn the front by a few
+# degrees to keep a wrong prior speed: a station far along the coast and a little inland is
+# "explained" by the heading as well as by the speed. Much wider, and two stations about as far
+# inland as each other, which leave the speed undetermined, gave absurd speeds instead.)
+SPEED_REL_SD = 1.0
 # A young front runs at about half the speed it reaches later in the day ("from under 3 to over
 # 6 m/s", Linacre & Geerts 1997); the prior is for the first passages, so it starts there and the
 # forecast's speed-up (fit.accelerated_eta) takes it toward the density-current speed.

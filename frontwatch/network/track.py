@@ -12,6 +12,7 @@ State is a few fronts, each holding at most one arrival per station: bounded by 
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -36,6 +37,11 @@ STALL_MIN_OVERDUE = 2  # overdue stations needed to call a stall (fewer if fewer
 STATION_UP_S = 15 * 60.0  # a station counts as reporting if its data are this fresh
 FRONT_TTL_S = 4 * 3600.0  # a front with no new passage for this long is closed
 MAX_FRONTS = 12
+# The assumed speed-up of a front (fit.accelerated_eta) stops at this local clock hour of its day:
+# the breeze and the land-sea temperature contrast that drives it grow until about mid-afternoon,
+# around the day's highest temperature, and no longer after it (common practice; the hour is from
+# memory). Used when the tracker is given a local clock.
+ACCEL_END_LOCAL_H = 15.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -92,6 +98,7 @@ class Front:
     # first: the station is overdue after its deadline (set from the fit at each new arrival).
     deadlines: list[tuple[float, str]] = field(default_factory=list)
     cache: dict[str, Any] = field(default_factory=dict)  # values derived from the arrivals (reset by refit)
+    accel_until: float | None = None  # data time the assumed speed-up stops (ACCEL_END_LOCAL_H of its day)
 
     def refit(self) -> None:
         self.cache.clear()
@@ -100,7 +107,7 @@ class Front:
             PassageFacts(a.shore_to_deg, a.temp_change_c, a.temp_after_c, a.dir_before_deg, a.speed_before_ms)
             for a in self.arrivals.values()
         )
-        self.fit = fit_front(pts, prior)
+        self.fit = fit_front(pts, prior, accel_until=self.accel_until)
 
     @property
     def basis(self) -> str:
@@ -122,14 +129,14 @@ class Front:
     def to_state(self) -> dict[str, Any]:
         return {"key": self.key, "arrivals": [a.to_state() for a in self.arrivals.values()],
                 "last_change": self.last_change, "stalled_at": self.stalled_at, "overdue": list(self.overdue),
-                "deadlines": [list(d) for d in self.deadlines]}
+                "deadlines": [list(d) for d in self.deadlines], "accel_until": self.accel_until}
 
     @classmethod
     def from_state(cls, s: dict[str, Any]) -> Front:
         arr = [Arrival.from_state(a) for a in s["arrivals"]]
         f = cls(key=s["key"], arrivals={a.station: a for a in arr}, last_change=float(s["last_change"]),
                 stalled_at=s["stalled_at"], overdue=list(s["overdue"]),
-                deadlines=[(float(d[0]), str(d[1])) for d in s["deadlines"]])
+                deadlines=[(float(d[0]), str(d[1])) for d in s["deadlines"]], accel_until=s.get("accel_until"))
         f.refit()
         return f
 
@@ -137,8 +144,10 @@ class Front:
 class FrontTracker:
     """The open fronts of a network. `positions` maps station id -> (x, y, onshore_from_deg)."""
 
-    def __init__(self, positions: dict[str, tuple[float, float, float]]) -> None:
+    def __init__(self, positions: dict[str, tuple[float, float, float]],
+                 local_hour: Callable[[float], float] | None = None) -> None:
         self.positions = positions
+        self.local_hour = local_hour  # epoch s -> local clock hour; None: the speed-up has no end hour
         self.fronts: list[Front] = []
         self._ids = list(positions)
         self._x = np.array([positions[k][0] for k in self._ids], dtype=float)
@@ -175,7 +184,10 @@ class FrontTracker:
             if z <= 1.0 and z < best_z:
                 best, best_z = fr, z
         if best is None:
-            best = Front(key=f"{ev.station}-{compact_z(ev.onset)}")
+            until = None
+            if self.local_hour is not None:
+                until = ev.onset + (ACCEL_END_LOCAL_H - self.local_hour(ev.onset)) * 3600.0
+            best = Front(key=f"{ev.station}-{compact_z(ev.onset)}", accel_until=until)
             self.fronts.append(best)
             if len(self.fronts) > MAX_FRONTS:
                 self.fronts.pop(0)

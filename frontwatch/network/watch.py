@@ -79,9 +79,9 @@ class SiteWatch:
         for s in st:
             x, y = local_xy_m(s.lat, s.lon, self.lat0, self.lon0)
             pos[s.id] = (x, y, s.onshore_from_deg)
-        self.tracker = FrontTracker(pos)
         tz = config.tz
         self.clock = LocalClock(tz)
+        self.tracker = FrontTracker(pos, self.clock.hour)
         self.day_end_h = config.detector.day_end_h
         self.sites: list[_Site] = []
         self.monitors: dict[str, CourseMonitor] = {}  # site id -> monitor

@@ -17,6 +17,7 @@ import itertools
 import logging
 import socket
 import time
+from bisect import bisect_right
 from collections import deque
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass
@@ -28,7 +29,7 @@ import uvicorn
 
 from ..alerts.webhook import WebhookSender
 from ..config import NetworkConfig
-from ..engine import Engine
+from ..engine import BATCH_MIN, Engine
 from ..errors import DecodeError
 from ..events import PassageEvent
 from ..obs import Observation, decode_payload
@@ -395,13 +396,16 @@ class Service:
     def process_batch(self, batch: list[_Item]) -> None:
         """Decode, feed, store; synchronous on purpose (see the module docstring).
 
+        The chunk's records are fed to the core in arrival order: from engine.BATCH_MIN records
+        in one Engine.feed_indexed call (station by station through the compiled scan; the same
+        outputs, order and state as record by record), fewer one by one. Each output carries the
+        arrival time of the message whose record caused it (the latency histogram's start).
         Journal rows and acks are grouped: they are committed (then acknowledged) with the outputs
         of a batch that has any, after ACK_EVERY messages, or COMMIT_EVERY_S after the oldest
         waiting one, so a quiet feed does not pay one transaction per record. Until then the
         messages stay unacknowledged, so a crash loses nothing: the broker sends them again."""
         m = self.metrics
         eng = self.engine
-        feed = eng.feed
         known = eng.detectors
         self.taken += len(batch)
         if not self._unjournalled:
@@ -409,13 +413,11 @@ class Service:
         self._unacked.extend(batch)
         journal = self._unjournalled
         outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
-        n_rec = 0
-        t_core = 0.0
         latest: dict[str, tuple[Observation, float]] = {}
-        flags: dict[str, list[str]] = {}
         refused: dict[str, int] = {}  # counted per batch, not per record (same totals)
-        qc = eng.stats.qc
-        perf = time.perf_counter
+        records: list[Observation] = []
+        starts: list[int] = []  # index in `records` of each message's first record
+        arrived: list[float] = []  # ... and that message's arrival (wall clock)
         for item in batch:
             obs, errors = self._decode(item.topic, item.payload)
             for err in errors:
@@ -424,22 +426,28 @@ class Service:
                 continue
             if any(o.station in known for o in obs):
                 journal.append((item.topic, item.payload))
-            n_rec += len(obs)
-            t0 = perf()
             received = item.received
+            starts.append(len(records))
+            arrived.append(received)
+            records.extend(obs)
             for o in obs:
-                try:
-                    produced = feed(o)
-                except Exception:  # a bug in the core must not stop the stream: count, report once
-                    self._core_error(o)
-                    continue
-                if produced:
-                    for out in produced:
-                        outputs.append(self._route(out.to_dict(), received))
                 latest[o.station] = (o, received)
-                if qc.total() != self._qc_total:
-                    flags.setdefault(o.station, []).extend(self._new_flags())
-            t_core += perf() - t0
+        n_rec = len(records)
+        flags: dict[str, list[str]] = {}
+        t0 = time.perf_counter()
+        if n_rec >= BATCH_MIN:
+            try:
+                produced = eng.feed_indexed(records, flags)
+            except Exception:  # a bug in the core must not stop the stream: count, report once
+                self._core_error(records[0], n_rec)
+                produced = []
+            for i, out in produced:
+                outputs.append(self._route(out.to_dict(), arrived[bisect_right(starts, i) - 1]))
+            if flags:
+                self._new_flags()  # the per-record path below compares against these counts
+        elif n_rec:
+            self._feed_each(records, starts, arrived, outputs, flags)
+        t_core = time.perf_counter() - t0
         # The dashboard gets each station's newest record of the batch: every record at live rates
         # (a batch is one message), a sample when catching up on a backlog.
         seen = m.station_seen
@@ -460,6 +468,26 @@ class Service:
         if outputs or len(self._unacked) >= ACK_EVERY or \
                 time.monotonic() - self._first_pending >= COMMIT_EVERY_S:
             self.commit(outputs)
+
+    def _feed_each(self, records: list[Observation], starts: list[int], arrived: list[float],
+                   outputs: list[tuple[str, str, dict[str, Any], bool, float]], flags: dict[str, list[str]]) -> None:
+        """A small chunk record by record (Engine.feed), a failing record counted and skipped alone."""
+        feed = self.engine.feed
+        qc = self.engine.stats.qc
+        k = 0
+        for i, o in enumerate(records):
+            while k + 1 < len(starts) and starts[k + 1] <= i:
+                k += 1
+            try:
+                produced = feed(o)
+            except Exception:  # a bug in the core must not stop the stream: count, report once
+                self._core_error(o)
+                continue
+            if produced:
+                for out in produced:
+                    outputs.append(self._route(out.to_dict(), arrived[k]))
+            if qc.total() != self._qc_total:
+                flags.setdefault(o.station, []).extend(self._new_flags())
 
     def commit(self, outputs: list[tuple[str, str, dict[str, Any], bool, float]] | None = None) -> None:
         """Journal what was fed, store `outputs`, then acknowledge the messages to the broker."""
@@ -496,11 +524,14 @@ class Service:
         ok = not task.cancelled() and task.exception() is None and task.result()
         self.metrics.webhooks.labels("sent" if ok else "failed").inc()
 
-    def _core_error(self, o: Observation) -> None:
-        self.metrics.refused.labels("core_error").inc()
+    def _core_error(self, o: Observation, n: int = 1) -> None:
+        """A record (or a chunk of `n` fed at once, `o` its first) the core failed on: counted,
+        reported once. A chunk's failure leaves the core part-way through it."""
+        self.metrics.refused.labels("core_error").inc(n)
         if not self._core_errors:
-            log.exception("the core failed on a record of station %r at %s; such records are counted "
-                          "(frontwatch_records_refused_total{reason=\"core_error\"}) and skipped", o.station, o.time)
+            log.exception("the core failed on %s of station %r at %s; such records are counted "
+                          "(frontwatch_records_refused_total{reason=\"core_error\"}) and skipped",
+                          "a record" if n == 1 else f"a chunk of {n} records, the first", o.station, o.time)
         self._core_errors += 1
 
     def _new_flags(self) -> list[str]:

@@ -206,6 +206,23 @@ def test_weak_channel_change_time_gets_a_wider_allowance():
     assert clear_td.kind == "wind_shift"  # a clear turn of a sustained wind, but not one front
 
 
+def test_wind_may_lead_the_air_but_not_trail_it():
+    # Clear changes (z = 8 to 10: allowance coherence_min = 6 min). The wind turning 8 minutes before
+    # the cooling and moistening is the front's order (the head's convergence ahead of the marine air,
+    # sensor lag; common practice): coherent. The same gap with the air first is what a cloud's
+    # cooling followed by an unrelated wobble of the wind looks like: not one front.
+    s = config().detector
+    turn = dict(dir_before=0.0, dir_after=180.0, speed_before=3.0, speed_after=3.0, spread_after=10.0,
+                turn_deg=180.0, onshore_before=-3.0, onshore_after=3.0, before_offset_deg=180.0,
+                after_offset_deg=0.0, change_offset_deg=0.0, change_speed=6.0, z_onshore=10.0, z_dewpoint=8.0)
+    leads = classify(_sig(change_times_min=(0.0, 0.0, -8.0), **turn), s, 70.0, can_wait=False)
+    assert leads.kind == "breeze_front"
+    trails = classify(_sig(change_times_min=(-8.0, -8.0, 0.0), **turn), s, 70.0, can_wait=False)
+    assert trails.kind != "breeze_front"
+    far_ahead = classify(_sig(change_times_min=(0.0, 0.0, -12.0), **turn), s, 70.0, can_wait=False)
+    assert far_ahead.kind != "breeze_front"  # 1.5 x 6 = 9 minutes is the most the wind may lead
+
+
 # ---------------------------------------------------------------- reporting interval
 def _subsampled(every_min: int, seed: int):
     from frontwatch.labels import label_from_dict

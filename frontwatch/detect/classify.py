@@ -30,6 +30,11 @@ WEAK_PERSIST_MIN = 10.0
 # coherence_min; weaker changes get a wider allowance (see the coherence test). 5 is a judgement,
 # set once and not searched.
 TIMED_Z = 5.0
+# At a front the wind turns first and the marine air reaches the sensors a few minutes later (the
+# head's convergence runs ahead of the cold air, and thermometer and hygrometer lag; common practice,
+# from memory): a wind change ahead of the air's gets this many times the timing allowance, one behind
+# it (the air changing first, as under a cloud) only the allowance. 1.5 is a judgement, not searched.
+WIND_LEADS_FACTOR = 1.5
 
 
 @dataclass(frozen=True, slots=True)
@@ -178,7 +183,8 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         zs = (sig.z_temp, sig.z_dewpoint, sig.z_onshore)
         idx = [i for i, ok in ((0, sig_t), (1, sig_d)) if ok]
         if sig.z_onshore >= 2.0:
-            coherent = all(abs(times[2] - times[i]) <= max(allow(zs[2]), allow(zs[i])) + lag for i in idx)
+            coherent = all(abs(times[2] - times[i]) <= max(allow(zs[2]), allow(zs[i]))
+                           * (WIND_LEADS_FACTOR if times[2] < times[i] else 1.0) + lag for i in idx)
         if coherent and len(idx) == 2:
             coherent = abs(times[0] - times[1]) <= max(allow(zs[0]), allow(zs[1]))
     dry = rain < 0.2  # rain at the change means convection, not a breeze front (DOMAIN.md section 3)

@@ -24,7 +24,7 @@ from __future__ import annotations
 import warnings
 from bisect import bisect_right
 from collections import deque
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
 import numpy as np
@@ -63,13 +63,13 @@ def columns_of(records: Sequence[Observation]) -> tuple[np.ndarray, dict[str, np
     return station, out
 
 
-def run(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
+def run(eng: Engine, station: np.ndarray, columns: Mapping[str, Any],
         progress: Callable[[int], None] | None = None) -> list[Output]:
     """Feed all records (station ids, canonical columns; in stream order) through `eng`; its outputs."""
     return [o for _, o in run_indexed(eng, station, columns, progress)]
 
 
-def run_indexed(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
+def run_indexed(eng: Engine, station: np.ndarray, columns: Mapping[str, Any],
                 progress: Callable[[int], None] | None = None,
                 qc_flags: dict[str, list[str]] | None = None) -> list[tuple[int, Output]]:
     """run() with each output paired with the index of the record that caused it. With `qc_flags`,
@@ -79,7 +79,7 @@ def run_indexed(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray]
         return _run(eng, station, columns, progress, qc_flags)
 
 
-def _run(eng: Engine, station: np.ndarray, columns: dict[str, np.ndarray],
+def _run(eng: Engine, station: np.ndarray, columns: Mapping[str, Any],
          progress: Callable[[int], None] | None, qc_flags: dict[str, list[str]] | None) -> list[tuple[int, Output]]:
     n = len(station)
     nan = np.full(n, np.nan)
@@ -176,14 +176,14 @@ def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: n
         base = len(ring)
         if base:
             rows_all = np.concatenate([np.array(ring, dtype=float).reshape(base, NCOL), rows])
-            opened = np.concatenate([np.zeros(base, dtype=bool), opened])
-            reset = np.concatenate([np.zeros(base, dtype=bool), reset])
+            opened_all = np.concatenate([np.zeros(base, dtype=bool), opened])
+            reset_all = np.concatenate([np.zeros(base, dtype=bool), reset])
         else:
-            rows_all = rows
+            rows_all, opened_all, reset_all = rows, opened, reset
         n = len(rows_all)
         tl = rows_all[:, 0].tolist()
-        cand = np.flatnonzero(opened).tolist()
-        seg = np.flatnonzero(reset).tolist()  # indices where the ring restarted
+        cand = np.flatnonzero(opened_all).tolist()
+        seg = np.flatnonzero(reset_all).tolist()  # indices where the ring restarted
         j = 0  # next candidate in cand
         i = base - 1
         while True:
@@ -195,9 +195,9 @@ def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: n
                 if j >= len(cand):
                     break
                 i = cand[j]
-            if reset[i]:
+            if reset_all[i]:
                 det.pending = False
-                if not opened[i]:
+                if not opened_all[i]:
                     continue
             k = bisect_right(seg, i)
             start = seg[k - 1] if k else 0
@@ -240,36 +240,31 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
         new_minute[1:] = minute[1:] > np.maximum.accumulate(minute)[:-1]
     ev_at: dict[int, PassageEvent] = dict(raw)
     ev_mask = np.isin(upos, np.fromiter(ev_at, dtype=np.int64, count=len(ev_at)))
-    calls = np.flatnonzero(watched | new_minute | ev_mask).tolist()
+    calls = np.flatnonzero(watched | new_minute | ev_mask)
+    # The records the watch is given, as Engine.feed hands them over: QC'd (the rain is not QC'd)
+    cg = upos[calls]
+    given = list(map(Observation, ust[calls].tolist(), ut[calls].tolist(),
+                     *(clean[k][cg].tolist() for k in _FIELDS[:-1]), cols["rain_mm"][cg].tolist()))
+    is_watched = watched[calls].tolist()
     ut_l = ut.tolist()
     ust_l = ust.tolist()
-    upos_l = upos.tolist()
     last_seen = watch.last_seen
     synced = 0  # used records [0, synced) are in last_seen
-    for ci in calls:
-        t = ut_l[ci]
-        g = upos_l[ci]
+    for ci, g, o, w in zip(calls.tolist(), cg.tolist(), given, is_watched, strict=True):
         ev: PassageEvent | None = ev_at.get(g)
-        if ev is None and t < watch._next_tick:
-            if watched[ci]:
-                watch.observe(_obs(ust_l[ci], t, g, cols, clean), None)  # updates its course monitors
+        if ev is None and o.time < watch._next_tick:
+            if w:
+                watch.observe(o, None)  # updates its course monitors
             continue
         if synced < ci:
             last_seen.update(zip(ust_l[synced:ci], ut_l[synced:ci], strict=True))
         synced = ci + 1
-        o = _obs(ust_l[ci], t, g, cols, clean)
         if ev is not None:
             ev = eng.network_event(ev)
             out.append((g, ev))
-        out.extend((g, x) for x in watch.observe(o, ev))
+        produced = watch.observe(o, ev)
+        if produced:
+            out.extend((g, x) for x in produced)
     if synced < len(ut_l):
         last_seen.update(zip(ust_l[synced:], ut_l[synced:], strict=True))
     return out
-
-
-def _obs(sid: str, t: float, g: int, cols: dict[str, np.ndarray], clean: dict[str, np.ndarray]) -> Observation:
-    """The record as Engine.feed hands it to the watch: QC'd."""
-    c = clean
-    return Observation(sid, t, float(c["wind_dir_deg"][g]), float(c["wind_speed_ms"][g]), float(c["wind_gust_ms"][g]),
-                       float(c["temp_c"][g]), float(c["dewpoint_c"][g]), float(c["pressure_hpa"][g]),
-                       float(cols["rain_mm"][g]))

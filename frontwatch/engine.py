@@ -8,14 +8,16 @@ whole state as JSON-able data.
 from __future__ import annotations
 
 from collections import Counter
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from typing import Any, Protocol
+
+import numpy as np
 
 from .config import NetworkConfig
 from .detect.corroborate import Corroborator
 from .detect.station import StationDetector
 from .events import PassageEvent
-from .obs import Observation
+from .obs import CANONICAL, NAN, Observation
 from .qc import StationQC
 
 SNAPSHOT_VERSION = 1
@@ -145,6 +147,23 @@ class Engine:
                 total = qc.total()
         return out
 
+    def feed_columns(self, station: Sequence[str], columns: Mapping[str, Sequence[float]],
+                     qc_flags: dict[str, list[str]] | None = None) -> list[tuple[int, Output]]:
+        """feed_indexed() for records given as columns: station ids, and 'time' and the canonical
+        fields (frontwatch.obs.CANONICAL; a missing one is all NaN) as equal-length sequences.
+        A gateway's arrays reach the batch path this way without an Observation per record."""
+        n = len(station)
+        if n >= BATCH_MIN:
+            from . import batch
+
+            if batch.available():
+                ids = np.empty(n, dtype=object)
+                ids[:] = station
+                return batch.run_indexed(self, ids, columns, qc_flags=qc_flags)
+        nan = [NAN] * n
+        cols = [_floats(columns.get(k, nan)) for k in ("time", *CANONICAL)]
+        return self.feed_indexed(list(map(Observation, list(station), *cols)), qc_flags)
+
     def snapshot(self) -> dict[str, Any]:
         return {
             "version": SNAPSHOT_VERSION,
@@ -174,6 +193,10 @@ class Engine:
         if eng.watch is not None and snap.get("watch") is not None:
             eng.watch.restore(snap["watch"])
         return eng
+
+
+def _floats(col: Sequence[float]) -> list[float]:
+    return col.tolist() if isinstance(col, np.ndarray) else [float(x) for x in col]
 
 
 def _make_watch(config: NetworkConfig) -> Any:

@@ -54,6 +54,10 @@ def _scan_py(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc
     nan = math.nan
     FAST, SLOW, WANDER, K2, FLOOR_T, FLOOR_W, MIN_W = qp[22], qp[23], qp[24], qp[25], qp[26], qp[27], qp[28]
     recover = qp[29]
+    # Powers through pow() with exponents numba cannot see: the gate's `x ** 2` and `x ** 0.5` are
+    # libm pow() calls in Python, and numba would turn constant exponents into x * x and sqrt(x),
+    # which differ from pow() in the last bit now and then (about 1 value in 1,000 here).
+    SQ, ROOT = qp[30 + GATE_STATE_LEN], qp[31 + GATE_STATE_LEN]
     n = t.shape[0]
     for i in range(n):
         ti = t[i]
@@ -161,7 +165,7 @@ def _scan_py(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc
                 dev = abs(x - gs[8])
                 gs[8] += SLOW * (x - gs[8])
                 if dev > FLOOR_T:
-                    z2 += (dev / gs[10]) ** 2
+                    z2 += (dev / gs[10]) ** SQ
                 gs[10] += WANDER * (max(dev, MIN_W) - gs[10])
             else:
                 gs[0] = x_t
@@ -174,7 +178,7 @@ def _scan_py(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc
                 dev = abs(x - gs[9])
                 gs[9] += SLOW * (x - gs[9])
                 if dev > FLOOR_T:
-                    z2 += (dev / gs[11]) ** 2
+                    z2 += (dev / gs[11]) ** SQ
                 gs[11] += WANDER * (max(dev, MIN_W) - gs[11])
             else:
                 gs[2] = x_d
@@ -187,9 +191,9 @@ def _scan_py(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc
                 gs[7] += SLOW * (v - gs[7])
                 du = gs[4] - gs[5]
                 dv = gs[6] - gs[7]
-                dw = (du * du + dv * dv) ** 0.5
+                dw = (du * du + dv * dv) ** ROOT
                 if dw > FLOOR_W:
-                    z2 += (dw / gs[12]) ** 2
+                    z2 += (dw / gs[12]) ** SQ
                 gs[12] += WANDER * (max(dw, MIN_W) - gs[12])
             else:
                 gs[4] = u
@@ -241,7 +245,8 @@ def params(qc: Any) -> np.ndarray:
     """The parameter vector of _scan_py, from a StationQC (its channels hold the limits) and the
     detector's own constants: per channel (lo, hi, step, persist) for T, Td, speed, pressure [0:16],
     vane persist, late_s, gap_s, dewpoint excess, gust max, the ring's reset gap [16:22], the
-    gate's constants [22:29], the QC step recovery count [29], a fresh gate's state [30:44]."""
+    gate's constants [22:29], the QC step recovery count [29], a fresh gate's state [30:44], the
+    gate's exponents 2 and 0.5 [44:46]."""
     s = qc.settings
     vals: list[float] = []
     for ch in (qc._t, qc._d, qc._s, qc._p):
@@ -249,6 +254,7 @@ def params(qc: Any) -> np.ndarray:
     vals += [qc.vane.persist_s, s.late_s, s.gap_s, s.dewpoint_excess_c, s.speed_max_ms * 1.5, RESET_GAP_S]
     vals += [gate.FAST, gate.SLOW, gate.WANDER, gate.K2, gate.FLOOR_T, gate.FLOOR_W, gate.MIN_WANDER, _RECOVER]
     vals += gate.Gate().state()
+    vals += [2.0, 0.5]  # the gate's exponents (see _scan_py)
     return np.array(vals, dtype=np.float64)
 
 

@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import asyncio
 import contextlib
+import gc
 import itertools
 import logging
 import socket
@@ -32,7 +33,7 @@ from ..config import NetworkConfig
 from ..engine import BATCH_MIN, Engine
 from ..errors import DecodeError
 from ..events import PassageEvent
-from ..obs import Observation, decode_payload
+from ..obs import CANONICAL, Observation, Records, decode_payload_records
 from .hub import DashboardHub
 from .metrics import ServiceMetrics
 from .mqtt import Backoff, BurstReader, ack, flush_writes, make_client, receive_into, station_of
@@ -137,8 +138,8 @@ class Service:
         n = 0
         outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
         for _seq, topic, payload in self.store.journal_after(start):
-            obs, _errors = self._decode(topic, payload)
-            for o in obs:
+            got, _errors = self._decode(topic, payload)
+            for o in (got.observations() if isinstance(got, Records) else got):
                 n += 1
                 for out in self.engine.feed(o):
                     outputs.append(self._route(out.to_dict(), 0.0))
@@ -165,11 +166,15 @@ class Service:
             eng = Engine(self.config)
             t = datetime(2030, 1, 15, 12, tzinfo=self.config.tz or UTC).timestamp()  # local noon
             on = st.onshore_from_deg
+            made_up = []
             for k in range(180):  # 90 min offshore and warm, then onshore, cooler, moister
                 a = k >= 90
-                eng.feed(Observation(st.id, t + 60.0 * k, on if a else (on + 180.0) % 360.0, 5.0 if a else 3.0,
-                                     7.0 if a else 4.0, 21.0 if a else 26.0, 17.0 if a else 12.0,
-                                     1012.3 if a else 1012.0, 0.0))
+                made_up.append(Observation(st.id, t + 60.0 * k, on if a else (on + 180.0) % 360.0,
+                                           5.0 if a else 3.0, 7.0 if a else 4.0, 21.0 if a else 26.0,
+                                           17.0 if a else 12.0, 1012.3 if a else 1012.0, 0.0))
+            for o in made_up:
+                eng.feed(o)
+            Engine(self.config).feed_many(made_up)  # the batch path's compiled scan too (gateway chunks)
         except Exception:  # the real core will report its own trouble, record by record
             log.debug("core warm-up failed", exc_info=True)
         dt = time.perf_counter() - t0
@@ -181,6 +186,11 @@ class Service:
         stop = stop or asyncio.Event()
         self.warm_up()
         self.recover()
+        # What is alive now (modules, the compiled core, the restored state) lives as long as the
+        # process: keep it out of the cyclic collector's full passes, which otherwise walk it all
+        # (tens of ms each at gateway rates, seen as stalls of the consumer).
+        gc.collect()
+        gc.freeze()
         self._last_snapshot = time.monotonic()
         try:
             async with asyncio.TaskGroup() as tg:
@@ -375,7 +385,7 @@ class Service:
     def _inbox_full(self) -> bool:
         return len(self.inbox) >= READ_AHEAD or self._inbox_bytes >= READ_AHEAD_BYTES
 
-    def _decode(self, topic: str, payload: bytes) -> tuple[list[Observation], list[Any]]:
+    def _decode(self, topic: str, payload: bytes) -> tuple[Records | list[Observation], list[Any]]:
         known = self._topics.get(topic)
         if known is None:
             st = station_of(topic, self.obs_prefix)
@@ -387,7 +397,7 @@ class Service:
         if st is None:
             return [], []
         try:
-            return decode_payload(payload, topic_station=st, may_speak_for=speaks, naive_tz=self._naive_tz)
+            return decode_payload_records(payload, topic_station=st, may_speak_for=speaks, naive_tz=self._naive_tz)
         except (RecursionError, MemoryError, ValueError, TypeError) as exc:
             # The decoder refuses what it knows; a payload that trips the JSON parser itself (nesting
             # too deep) must not stop the stream either.
@@ -397,7 +407,7 @@ class Service:
         """Decode, feed, store; synchronous on purpose (see the module docstring).
 
         The chunk's records are fed to the core in arrival order: from engine.BATCH_MIN records
-        in one Engine.feed_indexed call (station by station through the compiled scan; the same
+        in one Engine.feed_columns call (station by station through the compiled scan; the same
         outputs, order and state as record by record), fewer one by one. Each output carries the
         arrival time of the message whose record caused it (the latency histogram's start).
         Journal rows and acks are grouped: they are committed (then acknowledged) with the outputs
@@ -415,37 +425,47 @@ class Service:
         outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
         latest: dict[str, tuple[Observation, float]] = {}
         refused: dict[str, int] = {}  # counted per batch, not per record (same totals)
-        records: list[Observation] = []
-        starts: list[int] = []  # index in `records` of each message's first record
+        parts: list[Records | list[Observation]] = []  # each message's records, in arrival order
+        starts: list[int] = []  # index (in the chunk's records) of each message's first record
         arrived: list[float] = []  # ... and that message's arrival (wall clock)
+        n_rec = 0
         for item in batch:
-            obs, errors = self._decode(item.topic, item.payload)
+            got, errors = self._decode(item.topic, item.payload)
             for err in errors:
                 refused[err.code] = refused.get(err.code, 0) + 1
-            if not obs:
+            if not got:
                 continue
-            if any(o.station in known for o in obs):
-                journal.append((item.topic, item.payload))
             received = item.received
-            starts.append(len(records))
+            if isinstance(got, Records):  # a gateway's array, as columns
+                if not known.keys().isdisjoint(got.station):
+                    journal.append((item.topic, item.payload))
+                for sid, i in dict(zip(got.station, range(len(got)), strict=True)).items():  # each station's last
+                    latest[sid] = (got.observation(i), received)
+            else:
+                if any(o.station in known for o in got):
+                    journal.append((item.topic, item.payload))
+                for o in got:
+                    latest[o.station] = (o, received)
+            parts.append(got)
+            starts.append(n_rec)
             arrived.append(received)
-            records.extend(obs)
-            for o in obs:
-                latest[o.station] = (o, received)
-        n_rec = len(records)
+            n_rec += len(got)
         flags: dict[str, list[str]] = {}
         t0 = time.perf_counter()
         if n_rec >= BATCH_MIN:
+            station, columns = _columns(parts)
             try:
-                produced = eng.feed_indexed(records, flags)
+                produced = eng.feed_columns(station, columns, flags)
             except Exception:  # a bug in the core must not stop the stream: count, report once
-                self._core_error(records[0], n_rec)
+                self._core_error(Observation(station[0], columns["time"][0]), n_rec)
                 produced = []
             for i, out in produced:
                 outputs.append(self._route(out.to_dict(), arrived[bisect_right(starts, i) - 1]))
             if flags:
                 self._new_flags()  # the per-record path below compares against these counts
         elif n_rec:
+            records = [o for part in parts
+                       for o in (part.observations() if isinstance(part, Records) else part)]
             self._feed_each(records, starts, arrived, outputs, flags)
         t_core = time.perf_counter() - t0
         # The dashboard gets each station's newest record of the batch: every record at live rates
@@ -648,6 +668,26 @@ class Service:
             except TimeoutError:
                 log.warning("the web server did not stop within 10 s")
             sock.close()
+
+
+def _columns(parts: list[Records | list[Observation]]) -> tuple[list[str], dict[str, list[float]]]:
+    """The chunk's records as columns (Engine.feed_columns), in arrival order."""
+    station: list[str] = []
+    time_: list[float] = []
+    values: list[list[float]] = [[] for _ in CANONICAL]
+    for part in parts:
+        if isinstance(part, Records):
+            station.extend(part.station)
+            time_.extend(part.time)
+            for acc, col in zip(values, part.values, strict=True):
+                acc.extend(col)
+        else:
+            st, t, *cols = zip(*part, strict=True)
+            station.extend(st)
+            time_.extend(t)
+            for acc, c in zip(values, cols, strict=True):
+                acc.extend(c)
+    return station, {"time": time_, **dict(zip(CANONICAL, values, strict=True))}
 
 
 def _anyone(_station: str) -> bool:

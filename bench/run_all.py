@@ -23,6 +23,7 @@ BENCHES: dict[str, tuple[list[str], list[str]]] = {
               ["detector_skill.py", "--seeds", "201", "--days", "3"]),
     "reference": (["reference_detectors.py", "--seeds", "201,202,203,204,205,206", "--days", "6"],
                   ["reference_detectors.py", "--seeds", "201", "--days", "2", "--presets", "ordinary"]),
+    "stress": (["detector_stress.py", "--days", "500", "--seed", "2"], ["detector_stress.py", "--days", "40"]),
     "track": (["track_skill.py", "--seeds", "11", "12", "13", "14", "15", "16", "17", "18", "--days", "4"],
               ["track_skill.py", "--seeds", "11", "--days", "2"]),
     "service": (["bench_service.py", "--runs", "3"], ["bench_service.py", "--runs", "1", "--records", "5000"]),

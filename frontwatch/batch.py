@@ -31,7 +31,6 @@ import numpy as np
 import pandas as pd
 
 from . import scan as scanmod
-from .detect.gate import Gate
 from .detect.station import NCOL, StationDetector
 from .engine import MAX_UNKNOWN, Engine, Output
 from .events import PassageEvent
@@ -79,6 +78,9 @@ def run_indexed(eng: Engine, station: np.ndarray, columns: Mapping[str, Any],
         return _run(eng, station, columns, progress, qc_flags)
 
 
+GROUP_RECORDS = 1 << 18  # records scanned in one compiled call at most (bounds the scan's arrays offline)
+
+
 def _run(eng: Engine, station: np.ndarray, columns: Mapping[str, Any],
          progress: Callable[[int], None] | None, qc_flags: dict[str, list[str]] | None) -> list[tuple[int, Output]]:
     n = len(station)
@@ -89,48 +91,30 @@ def _run(eng: Engine, station: np.ndarray, columns: Mapping[str, Any],
     stats.records += n
     codes, uniq = pd.factorize(station, sort=True)  # hashing: much cheaper than sorting the ids
     ids = np.asarray(uniq, dtype=object).astype(str)
+    ids_l = ids.tolist()
     order = np.argsort(codes, kind="stable")  # station-major, each station's records in stream order
-    bounds = np.searchsorted(codes[order], np.arange(len(ids) + 1))
+    bounds = np.searchsorted(codes[order], np.arange(len(ids) + 1)).tolist()
     used = np.zeros(n, dtype=bool)
     # The QC'd records, as the site watch is given them (the rain is not QC'd)
     clean = {k: np.full(n, np.nan) for k in _FIELDS[:-1]}
     raw: list[tuple[int, PassageEvent]] = []
     unknown_pos: list[int] = []
+    group: list[int] = []
+    size = 0
     done = 0
-    for k, sid in enumerate(ids.tolist()):
-        pos = order[bounds[k]:bounds[k + 1]]
-        pair = eng._pairs.get(sid)
-        if pair is None:
-            unknown_pos.extend(pos.tolist())
+    for k, sid in enumerate(ids_l):
+        m = bounds[k + 1] - bounds[k]
+        if sid not in eng._pairs:
+            unknown_pos.extend(order[bounds[k]:bounds[k + 1]].tolist())
             continue
-        q, det = pair
-        qs = scanmod.qc_state(q)
-        gs = np.array(det.gate.state(), dtype=float)
-        last_row_t = det.ring[-1][0] if det.ring else np.nan
-        rows, wd, ws, flags, opened, reset = scanmod.scan(
-            times[pos], cols["wind_dir_deg"][pos], cols["wind_speed_ms"][pos], cols["wind_gust_ms"][pos],
-            cols["temp_c"][pos], cols["dewpoint_c"][pos], cols["pressure_hpa"][pos], cols["rain_mm"][pos],
-            qs, scanmod.params(q), gs, last_row_t, det._sin_o, det._cos_o)
-        scanmod.set_qc_state(q, qs)
-        _count_flags(stats.qc, flags)
-        if qc_flags is not None and flags.any():
-            qc_flags.setdefault(sid, []).extend(_flag_names(flags))
-        ok = (flags & scanmod.REFUSED_BITS) == 0
-        acc = pos[ok]
-        used[acc] = True
-        clean["wind_dir_deg"][acc] = wd[ok]
-        clean["wind_speed_ms"][acc] = ws[ok]
-        rows = np.ascontiguousarray(rows[ok])
-        for name, col in (("wind_gust_ms", 8), ("temp_c", 1), ("dewpoint_c", 2), ("pressure_hpa", 5)):
-            clean[name][acc] = rows[:, col]
-        if len(rows):
-            stats.last_time[sid] = float(rows[-1, 0])
-        raw.extend(_detect(det, rows, opened[ok], reset[ok], acc))
-        det.gate = Gate()
-        det.gate.set_state(gs.tolist())
-        done += len(pos)
-        if progress is not None:
-            progress(done)
+        if group and size + m > GROUP_RECORDS:
+            done = _scan_group(eng, group, ids_l, order, bounds, times, cols, used, clean, raw, qc_flags,
+                               progress, done)
+            group, size = [], 0
+        group.append(k)
+        size += m
+    if group:
+        _scan_group(eng, group, ids_l, order, bounds, times, cols, used, clean, raw, qc_flags, progress, done)
     stats.used += int(used.sum())
     u = stats.unknown_stations
     for i in sorted(unknown_pos):  # in stream order: which ids are counted by name depends on it
@@ -141,6 +125,81 @@ def _run(eng: Engine, station: np.ndarray, columns: Mapping[str, Any],
     if progress is not None:
         progress(n)
     return out
+
+
+def _scan_group(eng: Engine, group: list[int], ids: list[str], order: np.ndarray, bounds: list[int],
+                times: np.ndarray, cols: dict[str, np.ndarray], used: np.ndarray, clean: dict[str, np.ndarray],
+                raw: list[tuple[int, PassageEvent]], qc_flags: dict[str, list[str]] | None,
+                progress: Callable[[int], None] | None, done: int) -> int:
+    """QC, wind and gate of the group's stations (indices into `ids`) in one compiled scan, then
+    each station's detector decisions; the stations' states are read before and written after."""
+    m = len(group)
+    pos = np.concatenate([order[bounds[k]:bounds[k + 1]] for k in group])
+    gb = np.zeros(m + 1, dtype=np.int64)
+    gb[1:] = np.cumsum([bounds[k + 1] - bounds[k] for k in group])
+    pairs = [eng._pairs[ids[k]] for k in group]
+    qs = np.array([scanmod.qc_state_list(q) for q, _ in pairs], dtype=float).reshape(m, scanmod.QC_STATE_LEN)
+    gs = np.array([scanmod.gate_state(d.gate) for _, d in pairs], dtype=float).reshape(m, scanmod.GATE_STATE_LEN)
+    last = np.array([d.ring[-1][0] if d.ring else np.nan for _, d in pairs], dtype=float)
+    so = np.array([d._sin_o for _, d in pairs], dtype=float)
+    co = np.array([d._cos_o for _, d in pairs], dtype=float)
+    qp = np.stack([_params(eng, ids[k], q) for k, (q, _) in zip(group, pairs, strict=True)])
+    rows, wd, ws, flags, opened, reset = scanmod.scan_many(
+        gb, times[pos], cols["wind_dir_deg"][pos], cols["wind_speed_ms"][pos], cols["wind_gust_ms"][pos],
+        cols["temp_c"][pos], cols["dewpoint_c"][pos], cols["pressure_hpa"][pos], cols["rain_mm"][pos],
+        qs, qp, gs, last, so, co)
+    stats = eng.stats
+    _count_flags(stats.qc, flags)
+    ok = (flags & scanmod.REFUSED_BITS) == 0
+    acc = pos[ok]
+    used[acc] = True
+    clean["wind_dir_deg"][acc] = wd[ok]
+    clean["wind_speed_ms"][acc] = ws[ok]
+    rows = rows[ok]
+    for name, col in (("wind_gust_ms", 8), ("temp_c", 1), ("dewpoint_c", 2), ("pressure_hpa", 5)):
+        clean[name][acc] = rows[:, col]
+    opened = opened[ok]
+    reset = reset[ok]
+    okb = np.zeros(m + 1, dtype=np.int64)  # each station's accepted rows are okb[j]:okb[j + 1]
+    okb[1:] = np.cumsum(ok)[gb[1:] - 1]
+    # per station: any gate opening, and its last restart (index in its accepted rows, or -1)
+    n_open = np.concatenate([[0], np.cumsum(opened)])
+    any_open = (n_open[okb[1:]] > n_open[okb[:-1]]).tolist()
+    restarts = np.flatnonzero(reset)
+    k_last = np.searchsorted(restarts, okb[1:]) - 1
+    r_last = np.where(k_last >= 0, restarts[np.maximum(k_last, 0)] if len(restarts) else -1, -1)
+    last_reset = np.where(r_last >= okb[:-1], r_last - okb[:-1], -1).tolist()
+    okb_l = okb.tolist()
+    gb_l = gb.tolist()
+    qs_l = qs.tolist()
+    gs_l = gs.tolist()
+    flagged = np.flatnonzero(np.add.reduceat(flags != 0, gb[:-1])).tolist() if qc_flags is not None else []
+    for j in flagged:
+        assert qc_flags is not None
+        qc_flags.setdefault(ids[group[j]], []).extend(_flag_names(flags[gb_l[j]:gb_l[j + 1]]))
+    set_qc, set_gate = scanmod.set_qc_state_list, scanmod.set_gate_state
+    last_time = stats.last_time
+    for j, (q, det) in enumerate(pairs):
+        set_qc(q, qs_l[j])
+        set_gate(det.gate, gs_l[j])  # every slot: as a restarted gate (a fresh Gate()) or the running one
+        lo, hi = okb_l[j], okb_l[j + 1]
+        if hi > lo:
+            last_time[ids[group[j]]] = float(rows[hi - 1, 0])
+            raw.extend(_detect(det, rows[lo:hi], opened[lo:hi], reset[lo:hi], acc[lo:hi], any_open[j],
+                               last_reset[j]))
+        done += gb_l[j + 1] - gb_l[j]
+        if progress is not None:
+            progress(done)
+    return done
+
+
+def _params(eng: Engine, sid: str, q: Any) -> np.ndarray:
+    """The scan's parameter vector of a station (scan.params), made once per engine."""
+    cache = eng._scan_params
+    qp = cache.get(sid)
+    if qp is None:
+        qp = cache[sid] = scanmod.params(q)
+    return qp
 
 
 def _count_flags(counter: Any, flags: np.ndarray) -> None:
@@ -162,15 +221,16 @@ def _flag_names(flags: np.ndarray) -> list[str]:
 
 
 def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: np.ndarray,
-            gpos: np.ndarray) -> list[tuple[int, PassageEvent]]:
+            gpos: np.ndarray, any_open: bool, last_reset: int) -> list[tuple[int, PassageEvent]]:
     """StationDetector.update's decisions over a station's new scanned rows (after the rows its
     ring holds already): where the gate opened or a candidate is pending, its evaluate_if_due;
-    leave the detector in the state record-by-record feeding would leave it."""
+    leave the detector in the state record-by-record feeding would leave it. `any_open`: whether
+    `opened` has a True; `last_reset`: the last index where `reset` is True, or -1."""
     n_new = len(rows)
     maxlen = det.maxlen
     ring = det.ring
     out: list[tuple[int, PassageEvent]] = []
-    if n_new and (det.pending or opened.any()):
+    if n_new and (det.pending or any_open):
         # The windows reach back into the rows held from before: put them in front (index `base`
         # is the first new row; nothing before it is a candidate or a restart).
         base = len(ring)
@@ -208,12 +268,10 @@ def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: n
             if i + 1 >= n:
                 break
     if n_new:
-        restarts = np.flatnonzero(reset)
-        if len(restarts):
-            start = int(restarts[-1])
+        start = 0
+        if last_reset >= 0:
+            start = last_reset
             det.ring = ring = deque(maxlen=maxlen)
-        else:
-            start = 0
         ring.extend(map(tuple, rows[max(start, n_new - maxlen):].tolist()))
     return out
 

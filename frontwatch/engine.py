@@ -73,6 +73,7 @@ class Engine:
         self.watch = _make_watch(config)
         self._pairs = {k: (self.qc[k], self.detectors[k]) for k in self.detectors}  # one lookup per record
         self.corroborate = Corroborator(config)
+        self._scan_params: dict[str, Any] = {}  # frontwatch.batch: each station's scan parameters, made once
 
     def feed(self, obs: Observation) -> list[Output]:
         """Take one observation (any station, event-time order per station) and return its outputs."""

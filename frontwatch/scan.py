@@ -14,6 +14,7 @@ Without numba installed, `available()` is False and the replay takes the record-
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 from typing import Any
 
 import numpy as np
@@ -233,12 +234,29 @@ def _chan_py(qs: np.ndarray, k: int, lo: float, hi: float, step: float, persist:
     return 0
 
 
+def _scan_many_py(bounds: np.ndarray, t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray,
+                  tc: np.ndarray, td: np.ndarray, p: np.ndarray, rain: np.ndarray, qs: np.ndarray, qp: np.ndarray,
+                  gs: np.ndarray, last_row_t: np.ndarray, so: np.ndarray, co: np.ndarray, rows: np.ndarray,
+                  wd_out: np.ndarray, ws_out: np.ndarray, flags: np.ndarray, opened: np.ndarray,
+                  reset: np.ndarray) -> None:
+    """_scan_py over several stations in one call: station k's records are [bounds[k], bounds[k+1])
+    of the arrays, its states row k of qs, qp, gs, last_row_t, so, co (last_row_t updated in place)."""
+    for k in range(bounds.shape[0] - 1):
+        lo = bounds[k]
+        hi = bounds[k + 1]
+        last_row_t[k] = _scan(t[lo:hi], wd[lo:hi], ws[lo:hi], gust[lo:hi], tc[lo:hi], td[lo:hi], p[lo:hi],
+                              rain[lo:hi], qs[k], qp[k], gs[k], last_row_t[k], so[k], co[k], rows[lo:hi],
+                              wd_out[lo:hi], ws_out[lo:hi], flags[lo:hi], opened[lo:hi], reset[lo:hi])
+
+
 if njit is not None:
     _chan = njit(cache=True, inline="always")(_chan_py)
     _scan = njit(cache=True)(_scan_py)
+    _scan_many = njit(cache=True)(_scan_many_py)
 else:  # pragma: no cover
     _chan = _chan_py
     _scan = _scan_py
+    _scan_many = _scan_many_py
 
 
 def params(qc: Any) -> np.ndarray:
@@ -256,6 +274,35 @@ def params(qc: Any) -> np.ndarray:
     vals += gate.Gate().state()
     vals += [2.0, 0.5]  # the gate's exponents (see _scan_py)
     return np.array(vals, dtype=np.float64)
+
+
+# A channel's state as frontwatch.qc._Channel.state() lists it (its last six slots, in this order)
+_CHANNEL_STATE = ("last", "last_t", "run_value", "run_start", "pend", "npend")
+QC_STATE_LEN = 1 + 5 * len(_CHANNEL_STATE)  # newest + 5 channels
+
+
+def _make_state_io() -> tuple[Callable[[Any], list[float]], Callable[[Any, list[float]], None],
+                              Callable[[Any], tuple[float, ...]], Callable[[Any, list[float]], None]]:
+    """Fast readers and writers of a StationQC's and a Gate's state (one generated function each,
+    from the slot names, instead of a call per channel and a setattr per slot). Equal to
+    qc_state/set_qc_state and Gate.state/set_state: tests/test_core_feedmany.py compares snapshots."""
+    chans = ("_t", "_d", "_s", "_p", "vane")
+    qc_attrs = ["newest"] + [f"{c}.{a}" for c in chans for a in _CHANNEL_STATE]
+    slots = gate.Gate.__slots__
+    src = (
+        "def qc_get(q):\n    return [" + ", ".join(f"q.{a}" for a in qc_attrs) + "]\n"
+        "def qc_set(q, v):\n    " + ", ".join(f"q.{a}" for a in qc_attrs) + " = v\n"
+        + "".join(f"    q.{c}.npend = int(q.{c}.npend)\n" for c in chans)
+        + "def gate_get(g):\n    return (" + ", ".join(f"g.{a}" for a in slots) + ",)\n"
+        "def gate_set(g, v):\n    " + ", ".join(f"g.{a}" for a in slots) + " = v\n"
+        "    g.primed = int(g.primed)\n"
+    )
+    ns: dict[str, Any] = {}
+    exec(src, ns)  # noqa: S102 - built from the slot names above, no outside input
+    return ns["qc_get"], ns["qc_set"], ns["gate_get"], ns["gate_set"]
+
+
+qc_state_list, set_qc_state_list, gate_state, set_gate_state = _make_state_io()
 
 
 def qc_state(qc: Any) -> np.ndarray:
@@ -289,4 +336,26 @@ def scan(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc: np
     _scan(f(t, float), f(wd, float), f(ws, float), f(gust, float), f(tc, float), f(td, float),
                  f(p, float), f(rain, float), qs, qp, gs, last_row_t, so, co, rows, wd_out, ws_out, flags,
                  opened, reset)
+    return rows, wd_out, ws_out, flags, opened, reset
+
+
+def scan_many(bounds: np.ndarray, t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc: np.ndarray,
+              td: np.ndarray, p: np.ndarray, rain: np.ndarray, qs: np.ndarray, qp: np.ndarray, gs: np.ndarray,
+              last_row_t: np.ndarray, so: np.ndarray, co: np.ndarray
+              ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """scan() for several stations at once (one compiled call, not one per station): station k's
+    records are [bounds[k], bounds[k+1]) of the arrays (each station's in its event-time order),
+    its states row k of qs, qp, gs and element k of last_row_t, so, co; qs, gs and last_row_t are
+    updated in place. Returns (rows, wind_dir, wind_speed, flags, opened, reset) over all records."""
+    n = len(t)
+    rows = np.empty((n, NCOL))
+    wd_out = np.empty(n)
+    ws_out = np.empty(n)
+    flags = np.zeros(n, dtype=np.int64)
+    opened = np.zeros(n, dtype=np.bool_)
+    reset = np.zeros(n, dtype=np.bool_)
+    f = np.ascontiguousarray
+    _scan_many(f(bounds, np.int64), f(t, float), f(wd, float), f(ws, float), f(gust, float), f(tc, float),
+               f(td, float), f(p, float), f(rain, float), qs, qp, gs, last_row_t, so, co, rows, wd_out, ws_out,
+               flags, opened, reset)
     return rows, wd_out, ws_out, flags, opened, reset

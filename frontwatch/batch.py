@@ -291,24 +291,28 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     # Records the watch must see: its own stations', those whose data minute passes the largest
     # one before them (a superset of the watch's minute ticks: the loop checks its clock too), the
     # events'.
-    watched = np.isin(ucode, [k for k, sid in enumerate(ids.tolist()) if sid in watch._watched])
+    is_watched = np.zeros(len(ids), dtype=bool)
+    is_watched[[k for k, sid in enumerate(ids.tolist()) if sid in watch._watched]] = True
+    watched = is_watched[ucode]
     minute = np.floor_divide(ut, 60.0)
     new_minute = np.ones(len(ut), dtype=bool)
     if len(ut) > 1:
         new_minute[1:] = minute[1:] > np.maximum.accumulate(minute)[:-1]
     ev_at: dict[int, PassageEvent] = dict(raw)
-    ev_mask = np.isin(upos, np.fromiter(ev_at, dtype=np.int64, count=len(ev_at)))
+    at_event = np.zeros(len(used), dtype=bool)
+    at_event[list(ev_at)] = True
+    ev_mask = at_event[upos]
     calls = np.flatnonzero(watched | new_minute | ev_mask)
     # The records the watch is given, as Engine.feed hands them over: QC'd (the rain is not QC'd)
     cg = upos[calls]
     given = list(map(Observation, ust[calls].tolist(), ut[calls].tolist(),
                      *(clean[k][cg].tolist() for k in _FIELDS[:-1]), cols["rain_mm"][cg].tolist()))
-    is_watched = watched[calls].tolist()
+    watched_call = watched[calls].tolist()
     ut_l = ut.tolist()
     ust_l = ust.tolist()
     last_seen = watch.last_seen
     synced = 0  # used records [0, synced) are in last_seen
-    for ci, g, o, w in zip(calls.tolist(), cg.tolist(), given, is_watched, strict=True):
+    for ci, g, o, w in zip(calls.tolist(), cg.tolist(), given, watched_call, strict=True):
         ev: PassageEvent | None = ev_at.get(g)
         if ev is None and o.time < watch._next_tick:
             if w:

@@ -1,14 +1,16 @@
-"""Compiled scan of one station's whole series: QC, wind vector and the detector's gate, per record.
+"""Compiled scan of stations' series: QC, wind vector and the detector's gate, per record.
 
 The same steps as frontwatch.qc.StationQC.check, the wind conversion of
 frontwatch.detect.station.StationDetector.update and frontwatch.detect.gate.Gate.update, written
-once more as a loop that numba compiles, so that an offline replay runs them over a station's
-records at C speed (frontwatch.batch). The Python classes stay the reference and the live path:
-tests/test_core_batch.py checks, record by record and on every generated preset with its faults,
-that this scan gives bit-identical values, flags, gate openings and states. The arithmetic is
-written in the same order as there (IEEE doubles, no fast-math), which is what makes it identical.
+once more as a loop that numba compiles, so that a chunk of records (a whole file offline, a
+chunk of gateway messages live) runs them at C speed, several stations in one call
+(frontwatch.batch). The Python classes stay the reference and the record-by-record path (single
+records live): tests/test_core_batch.py and tests/test_core_feedmany.py check on generated
+presets with their faults that this scan gives bit-identical values, flags, gate openings and
+states. The arithmetic is written in the same order as there (IEEE doubles, no fast-math, powers
+through pow() as Python does them), which is what makes it identical.
 
-Without numba installed, `available()` is False and the replay takes the record-by-record path.
+Without numba installed, `available()` is False and the core takes the record-by-record path.
 """
 
 from __future__ import annotations

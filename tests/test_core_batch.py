@@ -77,8 +77,9 @@ def test_batch_replay_equals_record_by_record_on_messy_input():
     _same(a, b)
 
 
-def test_record_path_is_taken_when_the_batch_does_not_apply():
-    # an engine already fed (e.g. restored state) continues record by record
+def test_a_replay_split_in_two_on_one_engine_equals_the_whole():
+    # an engine already fed (e.g. restored state) takes the rest of the file with its state carried
+    # over (the batch path continues from it), and the outputs are those of one record-by-record run
     sc = generate(preset("ordinary", seed=67, days=1))
     cfg = parse_network(sc.network)
     d = merge([decode_frame(sc.observations.copy(), cfg, "x")])

@@ -54,6 +54,8 @@ PATTERN_HOLD = 2  # analyses in a row
 REPORT_DIR_DEG = 10.0
 REPORT_MIN_GAP_S = 300.0  # between reports that only say the wind moved
 _YAM_B = 2.0 / math.sqrt(3.0) - 1.0  # Yamartino (1984) eq. 2 coefficient
+_DEG = math.pi / 180.0  # as calc.wind (the pattern analysis repeats its circular sums)
+_RESULTANT_EPS = 1e-9  # as calc.wind.circular_mean_deg: below it no mean direction exists
 
 
 def _r(x: float | None, nd: int = 1) -> float | None:
@@ -163,24 +165,64 @@ def _stat(minutes: int, ss: float, cs: float, nd: float, su: float, sv: float, n
     return WindowStat(minutes, None if vdir != vdir else vdir, spread, sp / ns if ns else None, int(ns))
 
 
+def _dir_of(ss: float, cs: float, nd: float, su: float, sv: float, nv: float, sp: float, ns: float) -> float:
+    """_stat's direction alone (NaN where it has none): what the pattern needs of the last minute."""
+    if ns == 0 and nd == 0:
+        return math.nan
+    vdir = wind_direction(su / nv, sv / nv) if nv else math.nan
+    if vdir != vdir and nd:
+        vdir = math.degrees(math.atan2(ss, cs)) % 360.0
+    return vdir
+
+
 def analyse_pattern(minute_dirs: list[tuple[float, float]]) -> Pattern:
     """Classify one-minute directions [(t, dir)] as persistent shift / oscillation / steady / unsettled."""
     pts = [(t, d) for t, d in minute_dirs if d == d]
+    return _analyse(pts, [_trig(d) for _, d in pts])
+
+
+def _trig(d: float) -> tuple[float, float] | None:
+    """(sin, cos) of a direction, None where it is not finite (as calc.wind's circular sums skip it)."""
+    if not math.isfinite(d):
+        return None
+    r = d * _DEG
+    return math.sin(r), math.cos(r)
+
+
+def _analyse(pts: list[tuple[float, float]], trig: list[tuple[float, float] | None]) -> Pattern:
+    """analyse_pattern over the non-NaN points, given each one's _trig (a monitor keeps them from
+    minute to minute: each minute's direction is in about PATTERN_MIN / PATTERN_EVERY_MIN analyses).
+    The arithmetic is calc.wind's circular mean and Yamartino spread over the same sums, in the
+    same order, so the result is the same to the bit."""
     if len(pts) < PATTERN_MIN_POINTS:
         return Pattern("unknown", None, None, None)
-    ref = circular_mean_deg([d for _, d in pts])
-    ts = [(t - pts[0][0]) / 60.0 for t, _ in pts]
-    rs = [angle_diff_deg(d, ref) for _, d in pts]
+    ss = cs = 0.0
+    k_dirs = 0
+    for tc in trig:
+        if tc is not None:
+            ss += tc[0]
+            cs += tc[1]
+            k_dirs += 1
+    if k_dirs == 0 or math.hypot(ss, cs) < _RESULTANT_EPS * k_dirs:
+        ref = math.nan
+    else:
+        ref = math.degrees(math.atan2(ss, cs)) % 360.0
+        if ref >= 360.0:
+            ref = 0.0
+    t0 = pts[0][0]
+    ts = [(t - t0) / 60.0 for t, _ in pts]
+    rs = [x - 360.0 if x > 180.0 else x for x in [(d - ref) % 360.0 for _, d in pts]]  # angle_diff_deg(d, ref)
     n = len(rs)
     k = max(n // 4, 5)
     trend = sum(rs[-k:]) / k - sum(rs[:k]) / k
     # Linear detrend, then the residual's sd and crossings of zero (with a small dead band).
     tm = sum(ts) / n
     rm = sum(rs) / n
-    stt = sum((t - tm) ** 2 for t in ts)
-    b = sum((t - tm) * (r - rm) for t, r in zip(ts, rs, strict=True)) / stt if stt > 0 else 0.0
-    e = [r - rm - b * (t - tm) for t, r in zip(ts, rs, strict=True)]
-    sd = math.sqrt(sum(x * x for x in e) / n)
+    tcs = [t - tm for t in ts]
+    stt = sum([x ** 2 for x in tcs])
+    b = sum([x * (r - rm) for x, r in zip(tcs, rs, strict=True)]) / stt if stt > 0 else 0.0
+    e = [r - rm - b * x for x, r in zip(tcs, rs, strict=True)]
+    sd = math.sqrt(sum([x * x for x in e]) / n)
     amp = math.sqrt(2.0) * sd
     band = 0.3 * sd
     crossings: list[float] = []
@@ -198,13 +240,21 @@ def analyse_pattern(minute_dirs: list[tuple[float, float]]) -> Pattern:
         period = 2.0 * (crossings[-1] - crossings[0]) / (len(crossings) - 1)
     # Lag-1 autocorrelation of the residual: a smooth swing of period P gives about cos(2 pi / P)
     # (0.87 for 12 min); minute-to-minute noise gives about 0.
-    r1 = sum(a * b for a, b in zip(e, e[1:], strict=False)) / (sd * sd * n) if sd > 0 else 0.0
+    r1 = sum([a * b for a, b in zip(e, e[1:], strict=False)]) / (sd * sd * n) if sd > 0 else 0.0
     if abs(trend) >= PERSIST_DEG and abs(trend) >= 1.5 * amp:
         return Pattern("persistent", trend, None, None)
     if (len(crossings) >= OSC_MIN_CROSSINGS and amp >= OSC_MIN_DEG and r1 >= OSC_MIN_AUTOCORR
             and period is not None and period >= OSC_MIN_PERIOD_MIN):
         return Pattern("oscillating", trend, period, amp)
-    y = yamartino_sigma_deg([d for _, d in pts[-10:]])
+    # Yamartino spread of the last ten points (calc.wind.yamartino_sigma_deg over the same sums)
+    ss = cs = 0.0
+    k_dirs = 0
+    for tc in trig[-10:]:
+        if tc is not None:
+            ss += tc[0]
+            cs += tc[1]
+            k_dirs += 1
+    y = yamartino_from_sums(ss / k_dirs, cs / k_dirs) if k_dirs else math.nan
     return Pattern("steady" if y <= STEADY_SPREAD_DEG else "unsettled", trend, None, None)
 
 
@@ -220,6 +270,7 @@ class CourseMonitor:
         # sum speed, n speeds]; windows add up the last k buckets (trigonometry once per record).
         self.buckets: deque[list[float]] = deque(maxlen=max(WINDOWS_MIN) + 2)
         self.minutes: deque[tuple[float, float]] = deque(maxlen=PATTERN_MIN)
+        self._minute_trig: deque[tuple[float, float] | None] = deque(maxlen=PATTERN_MIN)  # _trig of each
         self.pattern_kind = "unknown"  # the reported (debounced) pattern
         self.pattern_candidate = "unknown"
         self.pattern_count = 0
@@ -259,6 +310,10 @@ class CourseMonitor:
 
     def windows(self, now: float, spans: tuple[int, ...] = (1, *WINDOWS_MIN)) -> tuple[WindowStat, ...]:
         """window() for several spans (ascending), in one pass over the buckets, newest first."""
+        return tuple(_stat(k, *sums) for k, sums in zip(spans, self._sums(now, spans), strict=True))
+
+    def _sums(self, now: float, spans: tuple[int, ...] = (1, *WINDOWS_MIN)) -> list[tuple[float, ...]]:
+        """The running sums (_stat's arguments) of each span, accumulated newest bucket first."""
         m_now = now // 60.0
         ss = cs = nd = su = sv = nv = sp = ns = 0.0
         out = []
@@ -276,23 +331,31 @@ class CourseMonitor:
                     sp += b[7]
                     ns += b[8]
                 b = next(it, None)
-            out.append(_stat(k, ss, cs, nd, su, sv, nv, sp, ns))
-        return tuple(out)
+            out.append((ss, cs, nd, su, sv, nv, sp, ns))
+        return out
 
     def tick(self, now: float) -> CourseReport | None:
         """Once a data minute: update the summary; returns a report when it changed meaningfully."""
         quiet = not self.buckets or self.buckets[-1][0] < now // 60.0 - max(WINDOWS_MIN) - 1
         if quiet and self.last_report is None:
             return None  # nothing heard for longer than the longest window, nothing said yet
-        one, *rest = self.windows(now)
-        self.minutes.append((now, math.nan if one.dir_deg is None else one.dir_deg))
-        wins = tuple(rest)
-        w10 = wins[-1]
+        # The 1-minute direction and the 10-minute statistics every minute; the 2- and 5-minute
+        # ones only for a report (the same sums as windows(), so the same figures).
+        sums = self._sums(now)
+        one_dir = _dir_of(*sums[0])
+        self.minutes.append((now, one_dir))
+        self._minute_trig.append(_trig(one_dir))
+        w10 = _stat(WINDOWS_MIN[-1], *sums[-1])
         shift = None if w10.dir_deg is None else angle_diff_deg(w10.dir_deg, self.axis_deg)
         # The pattern needs tens of minutes to change: analyse every PATTERN_EVERY_MIN data minutes
         # (chosen by the minute's number, so replay and restore agree), believe it after PATTERN_HOLD.
         if int(now // 60.0) % PATTERN_EVERY_MIN == 0:
-            pat = analyse_pattern(list(self.minutes))
+            if len(self._minute_trig) == len(self.minutes):
+                pts = [m for m in self.minutes if m[1] == m[1]]
+                pat = _analyse(pts, [tc for m, tc in zip(self.minutes, self._minute_trig, strict=True)
+                                     if m[1] == m[1]])
+            else:  # (minutes set from outside)
+                pat = analyse_pattern(list(self.minutes))
             self.last_pattern = pat
             if pat.kind == self.pattern_candidate:
                 self.pattern_count += 1
@@ -337,6 +400,7 @@ class CourseMonitor:
             return None
         self.last_report = key
         self.last_report_at = now
+        wins = (*(_stat(k, *sm) for k, sm in zip(WINDOWS_MIN[:-1], sums[1:-1], strict=True)), w10)
         return CourseReport(self.site, now, self.axis_deg, wins, shift,
                             pat if pat.kind == self.pattern_kind else Pattern(self.pattern_kind, None, None, None),
                             self.new_breeze_since is not None, self.new_breeze_since)
@@ -354,6 +418,7 @@ class CourseMonitor:
     def restore(self, s: dict[str, Any]) -> None:
         self.buckets = deque(([float(x) for x in b] for b in s["buckets"]), maxlen=self.buckets.maxlen)
         self.minutes = deque(((_f(a), _f(b)) for a, b in s["minutes"]), maxlen=PATTERN_MIN)
+        self._minute_trig = deque((_trig(d) if d == d else None for _, d in self.minutes), maxlen=PATTERN_MIN)
         self.pattern_kind, self.pattern_candidate, self.pattern_count = s["pattern"]
         self.last_pattern = Pattern(*s["last_pattern"])
         self.breeze_run_start, self.breeze_run_len, self.breeze_fail, self.new_breeze_since = s["breeze"]

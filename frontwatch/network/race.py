@@ -316,7 +316,7 @@ class CourseMonitor:
         """The running sums (_stat's arguments) of each span, accumulated newest bucket first."""
         m_now = now // 60.0
         ss = cs = nd = su = sv = nv = sp = ns = 0.0
-        out = []
+        out: list[tuple[float, ...]] = []
         it = reversed(self.buckets)
         b = next(it, None)
         for k in spans:

@@ -23,7 +23,6 @@ from __future__ import annotations
 
 import warnings
 from bisect import bisect_right
-from collections import deque
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
 
@@ -31,7 +30,7 @@ import numpy as np
 import pandas as pd
 
 from . import scan as scanmod
-from .detect.station import NCOL, StationDetector
+from .detect.station import StationDetector
 from .engine import MAX_UNKNOWN, Engine, Output
 from .events import PassageEvent
 from .obs import Observation
@@ -140,7 +139,7 @@ def _scan_group(eng: Engine, group: list[int], ids: list[str], order: np.ndarray
     pairs = [eng._pairs[ids[k]] for k in group]
     qs = np.array([scanmod.qc_state_list(q) for q, _ in pairs], dtype=float).reshape(m, scanmod.QC_STATE_LEN)
     gs = np.array([scanmod.gate_state(d.gate) for _, d in pairs], dtype=float).reshape(m, scanmod.GATE_STATE_LEN)
-    last = np.array([d.ring[-1][0] if d.ring else np.nan for _, d in pairs], dtype=float)
+    last = np.array([d.ring_last_time() for _, d in pairs], dtype=float)
     so = np.array([d._sin_o for _, d in pairs], dtype=float)
     co = np.array([d._cos_o for _, d in pairs], dtype=float)
     qp = np.stack([_params(eng, ids[k], q) for k, (q, _) in zip(group, pairs, strict=True)])
@@ -228,14 +227,15 @@ def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: n
     `opened` has a True; `last_reset`: the last index where `reset` is True, or -1."""
     n_new = len(rows)
     maxlen = det.maxlen
-    ring = det.ring
     out: list[tuple[int, PassageEvent]] = []
+    held: np.ndarray | None = None
     if n_new and (det.pending or any_open):
         # The windows reach back into the rows held from before: put them in front (index `base`
         # is the first new row; nothing before it is a candidate or a restart).
-        base = len(ring)
+        held = det.ring_rows()
+        base = len(held)
         if base:
-            rows_all = np.concatenate([np.array(ring, dtype=float).reshape(base, NCOL), rows])
+            rows_all = np.concatenate([held, rows])
             opened_all = np.concatenate([np.zeros(base, dtype=bool), opened])
             reset_all = np.concatenate([np.zeros(base, dtype=bool), reset])
         else:
@@ -268,11 +268,17 @@ def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: n
             if i + 1 >= n:
                 break
     if n_new:
-        start = 0
+        # The ring afterwards: the last maxlen rows since its last restart (held as an array)
         if last_reset >= 0:
-            start = last_reset
-            det.ring = ring = deque(maxlen=maxlen)
-        ring.extend(map(tuple, rows[max(start, n_new - maxlen):].tolist()))
+            tail = rows[max(last_reset, n_new - maxlen):]
+        elif n_new >= maxlen:
+            tail = rows[n_new - maxlen:]
+        else:
+            if held is None:
+                held = det.ring_rows()
+            keep = held[max(0, len(held) - (maxlen - n_new)):]
+            tail = np.concatenate([keep, rows]) if len(keep) else rows
+        det.set_ring_rows(np.array(tail, dtype=float))  # a copy: the chunk's arrays are not kept
     return out
 
 
@@ -303,20 +309,33 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     at_event[list(ev_at)] = True
     ev_mask = at_event[upos]
     calls = np.flatnonzero(watched | new_minute | ev_mask)
-    # The records the watch is given, as Engine.feed hands them over: QC'd (the rain is not QC'd)
+    # The records the watch is given, as Engine.feed hands them over: QC'd (the rain is not QC'd).
+    # An Observation is made only for those that reach observe(); the others (a watched
+    # station's records within a minute) go to watch_wind as values.
     cg = upos[calls]
-    given = list(map(Observation, ust[calls].tolist(), ut[calls].tolist(),
-                     *(clean[k][cg].tolist() for k in _FIELDS[:-1]), cols["rain_mm"][cg].tolist()))
+    cg_l = cg.tolist()
+    st_c = ust[calls].tolist()
+    t_c = ut[calls].tolist()
+    wd_c = clean["wind_dir_deg"][cg].tolist()
+    ws_c = clean["wind_speed_ms"][cg].tolist()
+    rest_c = [clean[k][cg].tolist() for k in _FIELDS[2:-1]] + [cols["rain_mm"][cg].tolist()]
     watched_call = watched[calls].tolist()
     ut_l = ut.tolist()
     ust_l = ust.tolist()
     last_seen = watch.last_seen
+    mons_of = watch._watched
+    watch_wind = watch.watch_wind
+    next_tick = watch._next_tick
     synced = 0  # used records [0, synced) are in last_seen
-    for ci, g, o, w in zip(calls.tolist(), cg.tolist(), given, watched_call, strict=True):
+    for k, ci in enumerate(calls.tolist()):
+        g = cg_l[k]
         ev: PassageEvent | None = ev_at.get(g)
-        if ev is None and o.time < watch._next_tick:
-            if w:
-                watch.observe(o, None)  # updates its course monitors
+        t = t_c[k]
+        if ev is None and t < next_tick:
+            if watched_call[k]:
+                st = st_c[k]
+                last_seen[st] = t  # (as observe(): the order keys enter last_seen is kept)
+                watch_wind(st, t, wd_c[k], ws_c[k], mons_of[st])
             continue
         if synced < ci:
             last_seen.update(zip(ust_l[synced:ci], ut_l[synced:ci], strict=True))
@@ -324,7 +343,9 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
         if ev is not None:
             ev = eng.network_event(ev)
             out.append((g, ev))
+        o = Observation(st_c[k], t, wd_c[k], ws_c[k], *(c[k] for c in rest_c))
         produced = watch.observe(o, ev)
+        next_tick = watch._next_tick
         if produced:
             out.extend((g, x) for x in produced)
     if synced < len(ut_l):

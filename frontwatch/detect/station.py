@@ -58,7 +58,10 @@ class StationDetector:
         self.station = station
         self.clock = LocalClock(tz)
         self.maxlen = settings.baseline_min + settings.max_wait_min + 20
-        self.ring: deque[tuple[float, ...]] = deque(maxlen=self.maxlen)
+        self._ring: deque[tuple[float, ...]] = deque(maxlen=self.maxlen)
+        # The ring as an (n, NCOL) array instead, while frontwatch.batch keeps it so (None: the
+        # deque holds it); the deque is made from it only when the record path or a snapshot needs it.
+        self._ring_rows: np.ndarray | None = None
         self.gate = Gate()
         self.pending = False
         self.quiet_until = -1e18
@@ -79,6 +82,39 @@ class StationDetector:
     def clone(self, station: StationConfig) -> StationDetector:
         """A fresh detector for `station` with this prototype's settings and clock."""
         return StationDetector(self.settings, self.tz, self.southern, station)
+
+    # ------------------------------------------------------------------ the ring
+    @property
+    def ring(self) -> deque[tuple[float, ...]]:
+        """The last rows (time, T, Td, onshore, alongshore, p, u, v, gust, rain), oldest first."""
+        if self._ring_rows is not None:
+            self._ring = deque(map(tuple, self._ring_rows.tolist()), maxlen=self.maxlen)
+            self._ring_rows = None
+        return self._ring
+
+    @ring.setter
+    def ring(self, value: deque[tuple[float, ...]]) -> None:
+        self._ring = value
+        self._ring_rows = None
+
+    def ring_rows(self) -> np.ndarray:
+        """The ring as an (n, NCOL) float array (frontwatch.batch); do not modify it."""
+        if self._ring_rows is not None:
+            return self._ring_rows
+        r = self._ring
+        return np.array(r, dtype=float).reshape(len(r), NCOL)
+
+    def set_ring_rows(self, rows: np.ndarray) -> None:
+        """Make the ring these rows (at most maxlen, in time order; kept, not copied)."""
+        self._ring_rows = rows
+
+    def ring_last_time(self) -> float:
+        """Time of the ring's newest row (NaN when empty)."""
+        a = self._ring_rows
+        if a is not None:
+            return float(a[-1, 0]) if len(a) else NAN
+        r = self._ring
+        return r[-1][0] if r else NAN
 
     # ------------------------------------------------------------------ hot path
     def update(self, obs: Observation) -> PassageEvent | None:

@@ -127,16 +127,22 @@ class SiteWatch:
         return out
 
     def _watch_obs(self, obs: Observation, mons: list[CourseMonitor]) -> None:
-        d, s = obs.wind_dir_deg, obs.wind_speed_ms
+        self.watch_wind(obs.station, obs.time, obs.wind_dir_deg, obs.wind_speed_ms, mons)
+
+    def watch_wind(self, station: str, t: float, d: float, s: float, mons: list[CourseMonitor]) -> None:
+        """What a watched station's record does to the running wind and the course monitors
+        (`mons`, those it feeds): the whole of observe() for a record of it that neither carries
+        an event nor reaches the next minute, apart from last_seen (frontwatch.batch calls it so,
+        without an Observation)."""
         if d == d and s == s:
             u, v = wind_components(s, d)
-            e = self._ema[obs.station]
+            e = self._ema[station]
             a = DIR_EMA_ALPHA if e[2] else 1.0
             e[0] += a * (u - e[0])
             e[1] += a * (v - e[1])
             e[2] = 1.0
         for mon in mons:
-            mon.add(obs.time, d, s)
+            mon.add(t, d, s)
 
     # ---- passages -----------------------------------------------------------------------------
     def _on_passage(self, ev: PassageEvent, now: float) -> list[Output]:

@@ -318,7 +318,8 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     t_c = ut[calls].tolist()
     wd_c = clean["wind_dir_deg"][cg].tolist()
     ws_c = clean["wind_speed_ms"][cg].tolist()
-    rest_c = [clean[k][cg].tolist() for k in _FIELDS[2:-1]] + [cols["rain_mm"][cg].tolist()]
+    gu_c, tc_c, td_c, p_c = (clean[k][cg].tolist() for k in _FIELDS[2:-1])
+    rain_c = cols["rain_mm"][cg].tolist()
     watched_call = watched[calls].tolist()
     ut_l = ut.tolist()
     ust_l = ust.tolist()
@@ -343,7 +344,7 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
         if ev is not None:
             ev = eng.network_event(ev)
             out.append((g, ev))
-        o = Observation(st_c[k], t, wd_c[k], ws_c[k], *(c[k] for c in rest_c))
+        o = Observation(st_c[k], t, wd_c[k], ws_c[k], gu_c[k], tc_c[k], td_c[k], p_c[k], rain_c[k])
         produced = watch.observe(o, ev)
         next_tick = watch._next_tick
         if produced:

@@ -184,7 +184,7 @@ class StationDetector:
         if t_o < self.quiet_until:
             self.pending = False
             return None
-        sig = self._signature(arr, list(self.ring) if from_ring else arr.tolist(), sp, o, now, baseline_s, dt)
+        sig = self._signature(arr, list(self.ring) if from_ring else None, sp, o, now, baseline_s, dt)
         can_wait = now - t_o < wait_s
         dec = classify(sig, st, self.halfwidth, can_wait, self.averaging)
         if dec.kind is None:
@@ -217,26 +217,39 @@ class StationDetector:
                                                                     if np.isfinite(arr[-3:, _TC]).any() else NAN),
         )
 
-    def _signature(self, arr: np.ndarray, rows: list[Any], sp: Any, o: int, now: float, baseline_s: float,
+    def _signature(self, arr: np.ndarray, rows: list[Any] | None, sp: Any, o: int, now: float, baseline_s: float,
                    dt: float) -> Signature:
+        """The signature of the change at `o`. `rows`: the window as Python rows, or None to take
+        only the rows it reads (from half an hour before the onset) from `arr`."""
         st = self.settings
         t = arr[:, _T]
         t_o = t[o]
         n = len(t)
         pre_lo = int(np.searchsorted(t, t_o - baseline_s, side="left"))
         wind_lo = int(np.searchsorted(t, t_o - max(15 * 60.0, 2.5 * dt), side="left"))
+        # the window's times increase (QC refuses the rest): the rows from 30 min before the onset
+        rain_lo = int(np.searchsorted(t, t_o - 1800.0, side="left"))
         rec_lo = max(o, n - 3)
+        if rows is None:
+            off = min(wind_lo, rain_lo, o)  # rows[i - off] is row i
+            rows = arr[off:].tolist()
+        else:
+            off = 0
         xd = sp.detrended
-        pre, n_pre = sp.range_mean(pre_lo, o)
-        rec, _ = sp.range_mean(rec_lo, n)
-        # Significance of each channel's shift over the whole 'after' so far: a change that
-        # persists gains evidence minute by minute, a wobble that reverts loses it.
-        post, n_post = sp.range_mean(o, n)
+        # Split.range_mean of [pre_lo, o), [rec_lo, n) and [o, n), in one errstate
+        cs, cn = sp.csum, sp.ccount
         with np.errstate(all="ignore"):
+            n_pre = cn[o] - cn[pre_lo]
+            pre = (cs[o] - cs[pre_lo]) / n_pre
+            rec = (cs[n] - cs[rec_lo]) / (cn[n] - cn[rec_lo])
+            # Significance of each channel's shift over the whole 'after' so far: a change that
+            # persists gains evidence minute by minute, a wobble that reverts loses it.
+            n_post = cn[n] - cn[o]
+            post = (cs[n] - cs[o]) / n_post
             z = (post - pre) / sp.sigma * np.sqrt(n_pre * n_post / np.maximum(n_pre + n_post, 1))
         # (rows: the ring as Python rows; the small parts below are cheaper in plain Python than in numpy)
-        u0, v0 = _mean2(rows, wind_lo, o, _U, _V)
-        ur, vr = _mean2(rows, rec_lo, n, _U, _V)
+        u0, v0 = _mean2(rows, wind_lo - off, o - off, _U, _V)
+        ur, vr = _mean2(rows, rec_lo - off, n - off, _U, _V)
         if self.averaging > 1 and ur == ur and u0 == u0:
             # The station reports an A-minute running mean: after k minutes only k/A of the new wind
             # is in it, so un-smear the latest mean towards the wind that is actually blowing.
@@ -253,7 +266,7 @@ class StationDetector:
         # spread of the recent wind: circular std of the per-sample directions (Mardia's sqrt(-2 ln R))
         cx = cy = 0.0
         k = 0
-        for r in rows[rec_lo:]:
+        for r in rows[rec_lo - off:]:
             sp_ = math.hypot(r[_U], r[_V])
             if sp_ > 0:  # NaN compares false
                 cx += r[_U] / sp_
@@ -271,12 +284,12 @@ class StationDetector:
                 rate = (b[_TC] - a[_TC]) / ((b[_T] - a[_T]) / 60.0)
         p_after = [v for v in xd[o:, 4].tolist() if v == v]
         pj = max(p_after) - float(pre[4]) if p_after and pre[4] == pre[4] else NAN
-        gusts = [r[_G] for r in rows[o:] if r[_G] == r[_G]]
+        gusts = [r[_G] for r in rows[o - off:] if r[_G] == r[_G]]
         gust = max(gusts) if gusts else NAN
         # rain from half an hour before the onset: a rain-cooled outflow starts with its rain
-        rains = [r[_R] for r in rows if r[_T] >= t_o - 1800.0 and r[_R] == r[_R]]
+        rains = [r[_R] for r in rows[rain_lo - off:] if r[_R] == r[_R]]
         rain = sum(rains) if rains else NAN
-        deps = [r[_TC] - r[_TD] for r in rows[rec_lo:] if r[_TC] - r[_TD] == r[_TC] - r[_TD]]
+        deps = [r[_TC] - r[_TD] for r in rows[rec_lo - off:] if r[_TC] - r[_TD] == r[_TC] - r[_TD]]
         depression = sum(deps) / len(deps) if deps else NAN
         du, dv = (ur - u0, vr - v0) if ur == ur and u0 == u0 else (NAN, NAN)
         dspd = math.hypot(du, dv) if du == du else NAN

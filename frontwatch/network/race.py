@@ -156,13 +156,19 @@ def yamartino_from_sums(mean_sin: float, mean_cos: float) -> float:
 def _stat(minutes: int, ss: float, cs: float, nd: float, su: float, sv: float, nv: float, sp: float,
           ns: float) -> WindowStat:
     """A WindowStat from running sums (sin, cos, n dirs, u, v, n vectors, speed, n speeds)."""
+    return WindowStat(minutes, *_stat_fields(ss, cs, nd, su, sv, nv, sp, ns))
+
+
+def _stat_fields(ss: float, cs: float, nd: float, su: float, sv: float, nv: float, sp: float,
+                 ns: float) -> tuple[float | None, float | None, float | None, int]:
+    """_stat's (dir_deg, spread_deg, speed_ms, n), without making the WindowStat."""
     if ns == 0 and nd == 0:
-        return WindowStat(minutes, None, None, None, 0)
+        return None, None, None, 0
     vdir = wind_direction(su / nv, sv / nv) if nv else math.nan
     if vdir != vdir and nd:
         vdir = math.degrees(math.atan2(ss, cs)) % 360.0
     spread = yamartino_from_sums(ss / nd, cs / nd) if nd else None
-    return WindowStat(minutes, None if vdir != vdir else vdir, spread, sp / ns if ns else None, int(ns))
+    return None if vdir != vdir else vdir, spread, sp / ns if ns else None, int(ns)
 
 
 def _dir_of(ss: float, cs: float, nd: float, su: float, sv: float, nv: float, sp: float, ns: float) -> float:
@@ -211,7 +217,7 @@ def _analyse(pts: list[tuple[float, float]], trig: list[tuple[float, float] | No
             ref = 0.0
     t0 = pts[0][0]
     ts = [(t - t0) / 60.0 for t, _ in pts]
-    rs = [x - 360.0 if x > 180.0 else x for x in [(d - ref) % 360.0 for _, d in pts]]  # angle_diff_deg(d, ref)
+    rs = [x - 360.0 if (x := (d - ref) % 360.0) > 180.0 else x for _, d in pts]  # angle_diff_deg(d, ref)
     n = len(rs)
     k = max(n // 4, 5)
     trend = sum(rs[-k:]) / k - sum(rs[:k]) / k
@@ -345,8 +351,8 @@ class CourseMonitor:
         one_dir = _dir_of(*sums[0])
         self.minutes.append((now, one_dir))
         self._minute_trig.append(_trig(one_dir))
-        w10 = _stat(WINDOWS_MIN[-1], *sums[-1])
-        shift = None if w10.dir_deg is None else angle_diff_deg(w10.dir_deg, self.axis_deg)
+        d10, spread10, speed10, n10 = _stat_fields(*sums[-1])  # (its WindowStat only for a report)
+        shift = None if d10 is None else angle_diff_deg(d10, self.axis_deg)
         # The pattern needs tens of minutes to change: analyse every PATTERN_EVERY_MIN data minutes
         # (chosen by the minute's number, so replay and restore agree), believe it after PATTERN_HOLD.
         if int(now // 60.0) % PATTERN_EVERY_MIN == 0:
@@ -364,9 +370,9 @@ class CourseMonitor:
             if self.pattern_count >= PATTERN_HOLD:
                 self.pattern_kind = pat.kind
         pat = self.last_pattern
-        ok = (w10.dir_deg is not None and w10.spread_deg is not None and w10.speed_ms is not None
-              and w10.speed_ms >= NEW_BREEZE_MIN_MS and w10.spread_deg <= NEW_BREEZE_MAX_SPREAD_DEG
-              and in_sector(w10.dir_deg, self.onshore_from_deg, self.halfwidth))
+        ok = (d10 is not None and spread10 is not None and speed10 is not None
+              and speed10 >= NEW_BREEZE_MIN_MS and spread10 <= NEW_BREEZE_MAX_SPREAD_DEG
+              and in_sector(d10, self.onshore_from_deg, self.halfwidth))
         if ok:
             self.breeze_fail = 0
             if self.breeze_run_start is None:
@@ -384,7 +390,7 @@ class CourseMonitor:
                 self.breeze_run_start = None
         if self.pattern_kind != pat.kind:
             pat = Pattern(self.pattern_kind, pat.trend_deg, None, None)
-        key = (self.pattern_kind, self.new_breeze_since is not None, w10.dir_deg, w10.spread_deg)
+        key = (self.pattern_kind, self.new_breeze_since is not None, d10, spread10)
         last = self.last_report
         if last is not None and last[0] == key[0] and last[1] == key[1]:
             moved = False
@@ -396,11 +402,12 @@ class CourseMonitor:
                 moved = True
             if not moved or now - self.last_report_at < REPORT_MIN_GAP_S:
                 return None
-        if w10.n == 0 and last is None:
+        if n10 == 0 and last is None:
             return None
         self.last_report = key
         self.last_report_at = now
-        wins = (*(_stat(k, *sm) for k, sm in zip(WINDOWS_MIN[:-1], sums[1:-1], strict=True)), w10)
+        wins = (*(_stat(k, *sm) for k, sm in zip(WINDOWS_MIN[:-1], sums[1:-1], strict=True)),
+                WindowStat(WINDOWS_MIN[-1], d10, spread10, speed10, n10))
         return CourseReport(self.site, now, self.axis_deg, wins, shift,
                             pat if pat.kind == self.pattern_kind else Pattern(self.pattern_kind, None, None, None),
                             self.new_breeze_since is not None, self.new_breeze_since)

@@ -226,8 +226,9 @@ def _analyse(pts: list[tuple[float, float]], trig: list[tuple[float, float] | No
     rm = sum(rs) / n
     tcs = [t - tm for t in ts]
     stt = sum([x ** 2 for x in tcs])
-    b = sum([x * (r - rm) for x, r in zip(tcs, rs, strict=True)]) / stt if stt > 0 else 0.0
-    e = [r - rm - b * x for x, r in zip(tcs, rs, strict=True)]
+    drs = [r - rm for r in rs]
+    b = sum([x * r for x, r in zip(tcs, drs, strict=True)]) / stt if stt > 0 else 0.0
+    e = [r - b * x for x, r in zip(tcs, drs, strict=True)]  # r - rm - b * (t - tm)
     sd = math.sqrt(sum([x * x for x in e]) / n)
     amp = math.sqrt(2.0) * sd
     band = 0.3 * sd

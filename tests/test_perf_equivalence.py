@@ -16,7 +16,7 @@ from collections import deque
 import numpy as np
 
 from frontwatch.calc.wind import angle_diff_deg, circular_mean_deg, yamartino_sigma_deg
-from frontwatch.config import DetectorSettings
+from frontwatch.config import parse_network
 from frontwatch.detect.station import NCOL, StationDetector, _cadence_s
 from frontwatch.network.race import (
     PATTERN_MIN_POINTS,
@@ -137,7 +137,9 @@ def test_cadence_equals_numpy_median() -> None:
 
 
 def test_ring_as_array_and_as_deque_are_the_same_ring() -> None:
-    det = StationDetector(DetectorSettings())
+    cfg = parse_network({"network": {"name": "one", "utc_offset_hours": 0},
+                         "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0}]})
+    det = StationDetector(cfg.detector, station=cfg.stations[0])
     rows = np.random.default_rng(1).normal(size=(det.maxlen + 5, NCOL))
     rows[3, 4] = np.nan
     det.set_ring_rows(rows[-det.maxlen:].copy())

@@ -22,6 +22,7 @@ state, messy input) check it.
 from __future__ import annotations
 
 import warnings
+import weakref
 from bisect import bisect_right
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
@@ -140,9 +141,7 @@ def _scan_group(eng: Engine, group: list[int], ids: list[str], order: np.ndarray
     qs = np.array([scanmod.qc_state_list(q) for q, _ in pairs], dtype=float).reshape(m, scanmod.QC_STATE_LEN)
     gs = np.array([scanmod.gate_state(d.gate) for _, d in pairs], dtype=float).reshape(m, scanmod.GATE_STATE_LEN)
     last = np.array([d.ring_last_time() for _, d in pairs], dtype=float)
-    so = np.array([d._sin_o for _, d in pairs], dtype=float)
-    co = np.array([d._cos_o for _, d in pairs], dtype=float)
-    qp = np.stack([_params(eng, ids[k], q) for k, (q, _) in zip(group, pairs, strict=True)])
+    qp, so, co = _group_constants(eng, tuple(ids[k] for k in group), pairs)
     rows, wd, ws, flags, opened, reset = scanmod.scan_many(
         gb, times[pos], cols["wind_dir_deg"][pos], cols["wind_speed_ms"][pos], cols["wind_gust_ms"][pos],
         cols["temp_c"][pos], cols["dewpoint_c"][pos], cols["pressure_hpa"][pos], cols["rain_mm"][pos],
@@ -190,6 +189,26 @@ def _scan_group(eng: Engine, group: list[int], ids: list[str], order: np.ndarray
         if progress is not None:
             progress(done)
     return done
+
+
+_GROUP_CACHE: weakref.WeakKeyDictionary[Engine, dict[tuple[str, ...], tuple[np.ndarray, np.ndarray, np.ndarray]]] = \
+    weakref.WeakKeyDictionary()
+_GROUP_CACHE_MAX = 64  # distinct station groups kept per engine (a gateway's chunks mostly repeat one)
+
+
+def _group_constants(eng: Engine, key: tuple[str, ...], pairs: list[Any]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The scan's constant inputs of a group of stations (parameters, sine and cosine of the
+    onshore bearings), stacked once per engine and group; scan_many does not write them."""
+    cache = _GROUP_CACHE.setdefault(eng, {})
+    got = cache.get(key)
+    if got is None:
+        if len(cache) >= _GROUP_CACHE_MAX:
+            cache.clear()
+        qp = np.stack([_params(eng, sid, q) for sid, (q, _) in zip(key, pairs, strict=True)])
+        so = np.array([d._sin_o for _, d in pairs], dtype=float)
+        co = np.array([d._cos_o for _, d in pairs], dtype=float)
+        got = cache[key] = (qp, so, co)
+    return got
 
 
 def _params(eng: Engine, sid: str, q: Any) -> np.ndarray:

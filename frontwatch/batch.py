@@ -8,7 +8,9 @@ candidate is pending. The stations' events are then put back in stream order (th
 emitted each one) and go through the network steps (corroboration, the site watch) exactly as
 Engine.feed would pass them, with the site watch fed only the records that can change what it
 says (its own stations' records, records that start a new data minute, events), its 'last seen'
-times brought up to date before each.
+times brought up to date before each. Between chunks a detector's ring stays the array the scan
+wrote (StationDetector.ring_rows), turned into Python rows only if the record path or a snapshot
+reads it.
 
 The engine may hold state from earlier records (a restored snapshot, earlier chunks) and the
 records need not be in time order: QC refuses late, out-of-order and duplicate records per

@@ -38,11 +38,11 @@ class Split:
     csum: np.ndarray  # (n+1, C) cumulative sums of the detrended window (NaN as 0) ...
     ccount: np.ndarray  # ... and of valid counts: any range mean in O(1)
 
-    def range_mean(self, lo: int, hi: int) -> tuple[np.ndarray, np.ndarray]:
-        """Per-channel mean and count of the detrended samples [lo, hi) (NaN mean when empty)."""
-        cnt = self.ccount[hi] - self.ccount[lo]
-        with np.errstate(all="ignore"):
-            return (self.csum[hi] - self.csum[lo]) / cnt, cnt
+    def range_means(self, *ranges: tuple[int, int]) -> list[tuple[np.ndarray, np.ndarray]]:
+        """Per-channel mean and count of the detrended samples in each [lo, hi). An empty range
+        divides by zero (NaN mean): call it under np.errstate(all="ignore"), as the signature does."""
+        cs, cn = self.csum, self.ccount
+        return [((cs[hi] - cs[lo]) / (cn[hi] - cn[lo]), cn[hi] - cn[lo]) for lo, hi in ranges]
 
 
 # Clamp drifts to diurnal rates (per minute: T 3.6 K/h, Td 1.8 K/h, p 0.6 hPa/h; common practice):

@@ -236,16 +236,10 @@ class StationDetector:
         else:
             off = 0
         xd = sp.detrended
-        # Split.range_mean of [pre_lo, o), [rec_lo, n) and [o, n), in one errstate
-        cs, cn = sp.csum, sp.ccount
         with np.errstate(all="ignore"):
-            n_pre = cn[o] - cn[pre_lo]
-            pre = (cs[o] - cs[pre_lo]) / n_pre
-            rec = (cs[n] - cs[rec_lo]) / (cn[n] - cn[rec_lo])
-            # Significance of each channel's shift over the whole 'after' so far: a change that
-            # persists gains evidence minute by minute, a wobble that reverts loses it.
-            n_post = cn[n] - cn[o]
-            post = (cs[n] - cs[o]) / n_post
+            # Significance of each channel's shift over the whole 'after' [o, n) so far: a change
+            # that persists gains evidence minute by minute, a wobble that reverts loses it.
+            (pre, n_pre), (rec, _), (post, n_post) = sp.range_means((pre_lo, o), (rec_lo, n), (o, n))
             z = (post - pre) / sp.sigma * np.sqrt(n_pre * n_post / np.maximum(n_pre + n_post, 1))
         # (rows: the ring as Python rows; the small parts below are cheaper in plain Python than in numpy)
         u0, v0 = _mean2(rows, wind_lo - off, o - off, _U, _V)

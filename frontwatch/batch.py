@@ -24,7 +24,6 @@ state, messy input) check it.
 from __future__ import annotations
 
 import warnings
-import weakref
 from bisect import bisect_right
 from collections.abc import Callable, Mapping, Sequence
 from typing import Any
@@ -42,12 +41,7 @@ _FIELDS = ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms", "temp_c", "dewpoint_
 
 
 def available() -> bool:
-    """The batch path needs the compiled scan (numba)."""
-    return scanmod.available()
-
-
-def usable(eng: Engine, times: np.ndarray) -> bool:
-    """Whether run() applies: wherever the compiled scan is available (any engine state, any order)."""
+    """Whether run() applies: wherever the compiled scan (numba) is; any engine state, any order."""
     return scanmod.available()
 
 
@@ -193,15 +187,13 @@ def _scan_group(eng: Engine, group: list[int], ids: list[str], order: np.ndarray
     return done
 
 
-_GROUP_CACHE: weakref.WeakKeyDictionary[Engine, dict[tuple[str, ...], tuple[np.ndarray, np.ndarray, np.ndarray]]] = \
-    weakref.WeakKeyDictionary()
 _GROUP_CACHE_MAX = 64  # distinct station groups kept per engine (a gateway's chunks mostly repeat one)
 
 
 def _group_constants(eng: Engine, key: tuple[str, ...], pairs: list[Any]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The scan's constant inputs of a group of stations (parameters, sine and cosine of the
     onshore bearings), stacked once per engine and group; scan_many does not write them."""
-    cache = _GROUP_CACHE.setdefault(eng, {})
+    cache = eng._scan_groups
     got = cache.get(key)
     if got is None:
         if len(cache) >= _GROUP_CACHE_MAX:

@@ -74,7 +74,10 @@ class Engine:
         self.watch = _make_watch(config)
         self._pairs = {k: (self.qc[k], self.detectors[k]) for k in self.detectors}  # one lookup per record
         self.corroborate = Corroborator(config)
-        self._scan_params: dict[str, Any] = {}  # frontwatch.batch: each station's scan parameters, made once
+        # frontwatch.batch's constants, made once: each station's scan parameters, and each group of
+        # stations' parameters and onshore sines/cosines stacked (a gateway's chunks repeat a group)
+        self._scan_params: dict[str, Any] = {}
+        self._scan_groups: dict[tuple[str, ...], Any] = {}
 
     def feed(self, obs: Observation) -> list[Output]:
         """Take one observation (any station, event-time order per station) and return its outputs."""

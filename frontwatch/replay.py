@@ -248,11 +248,11 @@ class ReplayResult:
 def run_decoded(d: Decoded, config: NetworkConfig, progress: Callable[[int], None] | None = None,
                 engine: Engine | None = None, record_by_record: bool = False) -> ReplayResult:
     """The core over a decoded table. Station by station (frontwatch.batch, the same outputs and
-    final state) where it applies, else record by record through Engine.feed as the live service."""
+    final state) where numba is installed, else record by record through Engine.feed."""
     from . import batch
 
     eng = engine or Engine(config)
-    if not record_by_record and batch.usable(eng, d.columns["time"]):
+    if not record_by_record and batch.available():
         return ReplayResult(batch.run(eng, d.station, d.columns, progress), eng, len(d), d.bad, d.bad_by_reason)
     outputs: list[Output] = []
     feed = eng.feed

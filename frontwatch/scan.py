@@ -37,7 +37,7 @@ FLAG_NAMES = ("gap", "temp_range", "temp_stuck", "temp_step", "dewpoint_range", 
               "wind_speed_step", "pressure_range", "pressure_stuck", "pressure_step", "wind_dir_stuck",
               "gust_range", "duplicate", "late", "out_of_order")
 REFUSED_BITS = (1 << 16) | (1 << 17) | (1 << 18)  # a refused record never reaches the detector
-# QC state (qc_state): newest, then (last, last_t, run_value, run_start, pend, npend) of T, Td, speed,
+# QC state (qc_state_list): newest, then (last, last_t, run_value, run_start, pend, npend) of T, Td, speed,
 # pressure, vane. Gate state: frontwatch.detect.gate.Gate.state(), in its __slots__ order.
 GATE_STATE_LEN = len(gate.Gate.__slots__)
 
@@ -286,8 +286,9 @@ QC_STATE_LEN = 1 + 5 * len(_CHANNEL_STATE)  # newest + 5 channels
 def _make_state_io() -> tuple[Callable[[Any], list[float]], Callable[[Any, list[float]], None],
                               Callable[[Any], tuple[float, ...]], Callable[[Any, list[float]], None]]:
     """Fast readers and writers of a StationQC's and a Gate's state (one generated function each,
-    from the slot names, instead of a call per channel and a setattr per slot). Equal to
-    qc_state/set_qc_state and Gate.state/set_state: tests/test_core_feedmany.py compares snapshots."""
+    from the slot names, instead of a call per channel and a setattr per slot). They read and write
+    what StationQC's channels' state()/set_state() and Gate.state/set_state do:
+    tests/test_core_feedmany.py compares the snapshots."""
     chans = ("_t", "_d", "_s", "_p", "vane")
     qc_attrs = ["newest"] + [f"{c}.{a}" for c in chans for a in _CHANNEL_STATE]
     slots = gate.Gate.__slots__
@@ -307,45 +308,11 @@ def _make_state_io() -> tuple[Callable[[Any], list[float]], Callable[[Any, list[
 qc_state_list, set_qc_state_list, gate_state, set_gate_state = _make_state_io()
 
 
-def qc_state(qc: Any) -> np.ndarray:
-    st = [qc.newest]
-    for ch in (qc._t, qc._d, qc._s, qc._p, qc.vane):
-        st += [float(v) for v in ch.state()]
-    return np.array(st, dtype=np.float64)
-
-
-def set_qc_state(qc: Any, st: np.ndarray) -> None:
-    vals = st.tolist()
-    qc.newest = vals[0]
-    for k, ch in enumerate((qc._t, qc._d, qc._s, qc._p, qc.vane)):
-        ch.set_state(vals[1 + 6 * k: 7 + 6 * k])
-
-
-def scan(t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc: np.ndarray, td: np.ndarray,
-         p: np.ndarray, rain: np.ndarray, qs: np.ndarray, qp: np.ndarray, gs: np.ndarray, last_row_t: float,
-         so: float, co: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """Run the scan over one station's records (arrays in its event-time order), after a detector
-    row at `last_row_t` (NaN: none). qs and gs are updated in place. Returns (rows, wind_dir,
-    wind_speed, flags, opened, reset)."""
-    n = len(t)
-    rows = np.empty((n, NCOL))
-    wd_out = np.empty(n)
-    ws_out = np.empty(n)
-    flags = np.zeros(n, dtype=np.int64)
-    opened = np.zeros(n, dtype=np.bool_)
-    reset = np.zeros(n, dtype=np.bool_)
-    f = np.ascontiguousarray
-    _scan(f(t, float), f(wd, float), f(ws, float), f(gust, float), f(tc, float), f(td, float),
-                 f(p, float), f(rain, float), qs, qp, gs, last_row_t, so, co, rows, wd_out, ws_out, flags,
-                 opened, reset)
-    return rows, wd_out, ws_out, flags, opened, reset
-
-
 def scan_many(bounds: np.ndarray, t: np.ndarray, wd: np.ndarray, ws: np.ndarray, gust: np.ndarray, tc: np.ndarray,
               td: np.ndarray, p: np.ndarray, rain: np.ndarray, qs: np.ndarray, qp: np.ndarray, gs: np.ndarray,
               last_row_t: np.ndarray, so: np.ndarray, co: np.ndarray
               ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """scan() for several stations at once (one compiled call, not one per station): station k's
+    """Run the scan (_scan_py) over several stations' records in one compiled call: station k's
     records are [bounds[k], bounds[k+1]) of the arrays (each station's in its event-time order),
     its states row k of qs, qp, gs and element k of last_row_t, so, co; qs, gs and last_row_t are
     updated in place. Returns (rows, wind_dir, wind_speed, flags, opened, reset) over all records."""

@@ -245,12 +245,9 @@ def _fast_record(rec: Any) -> Observation | None:
             if t is None:
                 if type(raw) is not str:
                     return None
-                t = _fast_time(raw)
+                t = _parse_time_cached(raw)
                 if t is None:
                     return None
-                if len(_time_seen) > 4096:
-                    _time_seen.clear()
-                _time_seen[raw] = t
         else:
             return None  # unit suffixes, rh_pct, unknown fields
     if t is None or type(st) is not str or not st or st[0].isspace() or st[-1].isspace():
@@ -261,6 +258,17 @@ def _fast_record(rec: Any) -> Observation | None:
             return None
         vals[_WIND_DIR] = wd % 360.0
     return Observation(st, t, *vals)
+
+
+def _parse_time_cached(raw: str) -> float | None:
+    """_fast_time of a text not in _time_seen, remembered there (the cache is bounded: cleared past
+    4096 texts). None when the shortcut does not take it."""
+    t = _fast_time(raw)
+    if t is not None:
+        if len(_time_seen) > 4096:
+            _time_seen.clear()
+        _time_seen[raw] = t
+    return t
 
 
 def _loads(payload: bytes | str) -> tuple[Any, bool]:
@@ -339,13 +347,8 @@ def _fast_array(items: list[Any], topic_station: str | None,
     for raw in dict.fromkeys(texts):
         if type(raw) is not str:
             return None
-        if raw not in seen:
-            t = _fast_time(raw)
-            if t is None:
-                return None
-            if len(seen) > 4096:
-                seen.clear()
-            seen[raw] = t
+        if raw not in seen and _parse_time_cached(raw) is None:
+            return None
     try:
         times = [seen[x] for x in texts]
     except KeyError:  # the cache was cleared part-way (more than 4096 distinct times in one array)

@@ -28,6 +28,7 @@ import statistics
 import sys
 import time
 import warnings
+from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
@@ -36,7 +37,7 @@ import pandas as pd
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from frontwatch.config import NetworkConfig, parse_network  # noqa: E402
+from frontwatch.config import NetworkConfig, StationConfig, parse_network  # noqa: E402
 from frontwatch.events import PassageEvent  # noqa: E402
 from frontwatch.labels import label_from_dict  # noqa: E402
 from frontwatch.replay import decode_frame, merge, run_decoded  # noqa: E402
@@ -72,6 +73,7 @@ def _grid(df: pd.DataFrame, t0: float, n: int) -> dict[str, np.ndarray]:
 
 
 def _offset(dir_deg: float, onshore: float) -> float:
+    """The smallest angle between two bearings, degrees."""
     return abs((dir_deg - onshore + 180.0) % 360.0 - 180.0)
 
 
@@ -93,15 +95,25 @@ def _day_slices(times: np.ndarray, clock: LocalClock) -> dict[str, tuple[float, 
     return days
 
 
+def _stations(obs: pd.DataFrame, cfg: NetworkConfig) -> Iterator[tuple[StationConfig, pd.DataFrame]]:
+    """Each configured station with its records (stations without any are skipped)."""
+    for st in cfg.stations:
+        df = obs[obs["station"] == st.id]
+        if not df.empty:
+            yield st, df
+
+
+def _onshore(speed: float, dir_deg: float, st: StationConfig) -> bool:
+    """A mean wind of >= 1 m/s blowing from inside the station's onshore sector."""
+    return speed >= 1.0 and _offset(dir_deg, st.onshore_from_deg) <= st.onshore_halfwidth_deg
+
+
 def ruptures_events(obs: pd.DataFrame, cfg: NetworkConfig) -> list[PassageEvent]:
     import ruptures as rpt  # the reference library; a test dependency of the project
 
     clock = LocalClock(cfg.tz)
     out: list[PassageEvent] = []
-    for st in cfg.stations:
-        df = obs[obs["station"] == st.id]
-        if df.empty:
-            continue
+    for st, df in _stations(obs, cfg):
         times = df["time"].to_numpy(dtype=float)
         for lo, hi in _day_slices(times, clock).values():
             t0 = lo - (clock.hour(lo) * 3600.0) % 60.0
@@ -131,8 +143,7 @@ def ruptures_events(obs: pd.DataFrame, cfg: NetworkConfig) -> list[PassageEvent]
                 ua, va = np.nanmean(g["u"][a]), np.nanmean(g["v"][a])
                 sa, sb = float(np.hypot(ua, va)), float(np.hypot(ub, vb))
                 da, db = _vec_dir(ua, va), _vec_dir(ub, vb)
-                onshore_after = sa >= 1.0 and _offset(da, st.onshore_from_deg) <= st.onshore_halfwidth_deg
-                onshore_before = sb >= 1.0 and _offset(db, st.onshore_from_deg) <= st.onshore_halfwidth_deg
+                onshore_after, onshore_before = _onshore(sa, da, st), _onshore(sb, db, st)
                 # the air's change against the trend of the hour before
                 tt = g["temp_c"][k - 60 if k >= 60 else 0:k]
                 m = np.arange(len(tt))
@@ -149,10 +160,7 @@ def ruptures_events(obs: pd.DataFrame, cfg: NetworkConfig) -> list[PassageEvent]
 def shift45_events(obs: pd.DataFrame, cfg: NetworkConfig) -> list[PassageEvent]:
     clock = LocalClock(cfg.tz)
     out: list[PassageEvent] = []
-    for st in cfg.stations:
-        df = obs[obs["station"] == st.id]
-        if df.empty:
-            continue
+    for st, df in _stations(obs, cfg):
         t0 = float(df["time"].min())
         n = int((float(df["time"].max()) - t0) // 60) + 1
         g = _grid(df, t0, n)
@@ -166,11 +174,10 @@ def shift45_events(obs: pd.DataFrame, cfg: NetworkConfig) -> list[PassageEvent]:
             t = t0 + 60.0 * k
             if t - last < 3600.0 or not 8.0 <= clock.hour(t) < 20.0:
                 continue
-            if np.hypot(ub, vb) < 1.0 or np.hypot(ua, va) < 1.0:
+            if np.hypot(ub, vb) < 1.0:
                 continue
             db, da = _vec_dir(ub, vb), _vec_dir(ua, va)
-            turn = abs((da - db + 180.0) % 360.0 - 180.0)
-            if turn >= 45.0 and _offset(da, st.onshore_from_deg) <= st.onshore_halfwidth_deg:
+            if _offset(da, db) >= 45.0 and _onshore(float(np.hypot(ua, va)), da, st):
                 out.append(_event(st.id, t, t + 600.0, db, da))
                 last = t
     return out

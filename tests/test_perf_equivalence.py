@@ -23,6 +23,8 @@ from frontwatch.network.race import (
     STEADY_SPREAD_DEG,
     CourseMonitor,
     Pattern,
+    _pattern,
+    _pattern_py,
     analyse_pattern,
 )
 
@@ -97,6 +99,20 @@ def test_pattern_analysis_equals_the_plain_formulation() -> None:
         assert repr(got) == repr(_plain_pattern(s)), s
         kinds.add(got.kind)
     assert {"persistent", "oscillating", "steady", "unsettled", "unknown"} <= kinds  # every branch ran
+
+
+def test_compiled_pattern_kernel_equals_the_same_code_run_as_python() -> None:
+    """Where numba is installed the pattern kernel is compiled; without it the same function runs
+    as Python. Both give the same bits (a machine without numba reports the same patterns)."""
+    rng = random.Random(11)
+    codes: set[int] = set()
+    for i in range(400):
+        s = _series(rng, i % 4, n=rng.choice([15, 25, 40]))
+        flat = np.array([x for pair in s for x in pair], dtype=float)
+        got = tuple(float(x) for x in _pattern(flat, 2.0, 3.0))
+        assert repr(got) == repr(tuple(float(x) for x in _pattern_py(flat, 2.0, 3.0))), s
+        codes.add(int(got[0]))
+    assert codes == {0, 1, 2, 3, 4}
 
 
 def test_monitor_minute_by_minute_equals_its_windows_and_the_plain_pattern() -> None:

@@ -22,8 +22,12 @@ from __future__ import annotations
 
 import math
 from collections import deque
+from collections.abc import Iterable
 from dataclasses import dataclass
+from itertools import chain
 from typing import Any
+
+import numpy as np
 
 from ..calc.wind import (
     angle_diff_deg,
@@ -35,6 +39,12 @@ from ..calc.wind import (
     yamartino_sigma_deg,
 )
 from ..timeutil import iso_z
+
+njit: Any
+try:  # optional: the pattern kernel below runs as plain Python without it
+    from numba import njit
+except ImportError:  # pragma: no cover - exercised where numba is absent
+    njit = None
 
 WINDOWS_MIN = (2, 5, 10)
 PATTERN_MIN = 40
@@ -55,6 +65,7 @@ REPORT_DIR_DEG = 10.0
 REPORT_MIN_GAP_S = 300.0  # between reports that only say the wind moved
 _YAM_B = 2.0 / math.sqrt(3.0) - 1.0  # Yamartino (1984) eq. 2 coefficient
 _DEG = math.pi / 180.0  # as calc.wind (the pattern analysis repeats its circular sums)
+_RAD2DEG = 180.0 / math.pi  # math.degrees(x) is x * (180 / pi)
 _RESULTANT_EPS = 1e-9  # as calc.wind.circular_mean_deg: below it no mean direction exists
 
 
@@ -183,86 +194,170 @@ def _dir_of(ss: float, cs: float, nd: float, su: float, sv: float, nv: float, sp
 
 def analyse_pattern(minute_dirs: list[tuple[float, float]]) -> Pattern:
     """Classify one-minute directions [(t, dir)] as persistent shift / oscillation / steady / unsettled."""
-    pts = [(t, d) for t, d in minute_dirs if d == d]
-    return _analyse(pts, [_trig(d) for _, d in pts])
+    return _pattern_of(minute_dirs)
 
 
-def _trig(d: float) -> tuple[float, float] | None:
-    """(sin, cos) of a direction, None where it is not finite (as calc.wind's circular sums skip it)."""
-    if not math.isfinite(d):
-        return None
-    r = d * _DEG
-    return math.sin(r), math.cos(r)
-
-
-def _analyse(pts: list[tuple[float, float]], trig: list[tuple[float, float] | None]) -> Pattern:
-    """analyse_pattern over the non-NaN points, given each one's _trig (a monitor keeps them from
-    minute to minute: each minute's direction is in about PATTERN_MIN / PATTERN_EVERY_MIN analyses).
-    The arithmetic is calc.wind's circular mean and Yamartino spread over the same sums, in the
-    same order, so the result is the same to the bit."""
-    if len(pts) < PATTERN_MIN_POINTS:
+def _pattern_of(minute_dirs: Iterable[tuple[float, float]], n: int | None = None) -> Pattern:
+    """analyse_pattern through the compiled kernel: (t, dir) pairs (NaN directions are skipped)."""
+    seq = minute_dirs if n is not None else list(minute_dirs)
+    m = len(seq) if n is None else n  # type: ignore[arg-type]
+    code, tr, pe, am = _pattern(np.fromiter(chain.from_iterable(seq), float, 2 * m), 2.0, 3.0)
+    trend, period, amp = float(tr), float(pe), float(am)  # (plain floats from the uncompiled kernel too)
+    if code == 0:
         return Pattern("unknown", None, None, None)
-    ss = cs = 0.0
+    if code == 1:
+        return Pattern("persistent", trend, None, None)
+    if code == 2:
+        return Pattern("oscillating", trend, period, amp)
+    return Pattern("steady" if code == 3 else "unsettled", trend, None, None)
+
+
+def _pattern_py(td: np.ndarray, sq: float, cube: float) -> tuple[int, float, float, float]:
+    """The pattern analysis over a flat array (t0, dir0, t1, dir1, ...) of one-minute directions:
+    (kind code 0 unknown, 1 persistent, 2 oscillating, 3 steady, 4 unsettled; trend, period,
+    amplitude, NaN where none). numba compiles it where it is installed; it is also the plain Python.
+
+    The arithmetic is calc.wind's circular mean and Yamartino spread (the same sums in the same
+    order) and Python's own float semantics (math.degrees is x * 180/pi; % takes the divisor's
+    sign, as numba's does), so compiled and plain give the same bits. The powers come in as
+    `sq` and `cube` (2 and 3) so that numba calls pow() as Python does, instead of turning a
+    constant exponent into products that differ from pow() in the last bit now and then."""
+    nan = math.nan
+    m = td.shape[0] // 2
+    n = 0
+    for i in range(m):
+        if td[2 * i + 1] == td[2 * i + 1]:
+            n += 1
+    if n < PATTERN_MIN_POINTS:
+        return 0, nan, nan, nan
+    ts = np.empty(n)
+    rs = np.empty(n)
+    sn = np.empty(n)
+    cn = np.empty(n)
+    fin = np.zeros(n, dtype=np.bool_)
+    ds = np.empty(n)
+    j = 0
+    for i in range(m):
+        d = td[2 * i + 1]
+        if d == d:
+            ts[j] = td[2 * i]
+            ds[j] = d
+            if math.isfinite(d):
+                r = d * _DEG
+                sn[j] = math.sin(r)
+                cn[j] = math.cos(r)
+                fin[j] = True
+            j += 1
+    ss = 0.0
+    cs = 0.0
     k_dirs = 0
-    for tc in trig:
-        if tc is not None:
-            ss += tc[0]
-            cs += tc[1]
+    for j in range(n):
+        if fin[j]:
+            ss += sn[j]
+            cs += cn[j]
             k_dirs += 1
     if k_dirs == 0 or math.hypot(ss, cs) < _RESULTANT_EPS * k_dirs:
-        ref = math.nan
+        ref = nan
     else:
-        ref = math.degrees(math.atan2(ss, cs)) % 360.0
+        ref = (math.atan2(ss, cs) * _RAD2DEG) % 360.0
         if ref >= 360.0:
             ref = 0.0
-    t0 = pts[0][0]
-    ts = [(t - t0) / 60.0 for t, _ in pts]
-    rs = [x - 360.0 if (x := (d - ref) % 360.0) > 180.0 else x for _, d in pts]  # angle_diff_deg(d, ref)
-    n = len(rs)
+    t0 = ts[0]
+    for j in range(n):
+        ts[j] = (ts[j] - t0) / 60.0
+        x = (ds[j] - ref) % 360.0  # angle_diff_deg(d, ref)
+        rs[j] = x - 360.0 if x > 180.0 else x
     k = max(n // 4, 5)
-    trend = sum(rs[-k:]) / k - sum(rs[:k]) / k
+    late = 0.0
+    for j in range(n - k, n):
+        late += rs[j]
+    early = 0.0
+    for j in range(k):
+        early += rs[j]
+    trend = late / k - early / k
     # Linear detrend, then the residual's sd and crossings of zero (with a small dead band).
-    tm = sum(ts) / n
-    rm = sum(rs) / n
-    tcs = [t - tm for t in ts]
-    stt = sum([x ** 2 for x in tcs])
-    drs = [r - rm for r in rs]
-    b = sum([x * r for x, r in zip(tcs, drs, strict=True)]) / stt if stt > 0 else 0.0
-    e = [r - b * x for x, r in zip(tcs, drs, strict=True)]  # r - rm - b * (t - tm)
-    sd = math.sqrt(sum([x * x for x in e]) / n)
+    tsum = 0.0
+    rsum = 0.0
+    for j in range(n):
+        tsum += ts[j]
+        rsum += rs[j]
+    tm = tsum / n
+    rm = rsum / n
+    tc = np.empty(n)
+    stt = 0.0
+    for j in range(n):
+        tc[j] = ts[j] - tm
+        stt += math.pow(tc[j], sq)
+        rs[j] = rs[j] - rm  # now r - rm
+    b = 0.0
+    if stt > 0:
+        sxr = 0.0
+        for j in range(n):
+            sxr += tc[j] * rs[j]
+        b = sxr / stt
+    e = np.empty(n)
+    see = 0.0
+    for j in range(n):
+        e[j] = rs[j] - b * tc[j]  # r - rm - b * (t - tm)
+        see += e[j] * e[j]
+    sd = math.sqrt(see / n)
     amp = math.sqrt(2.0) * sd
     band = 0.3 * sd
-    crossings: list[float] = []
+    n_cross = 0
+    first_cross = last_cross = 0.0
     sign = 0
-    last_t = last_e = None
-    for t, x in zip(ts, e, strict=True):
+    last_t = last_e = nan
+    have_last = False
+    for j in range(n):
+        t = ts[j]
+        x = e[j]
         s = 1 if x > band else (-1 if x < -band else 0)
         if s != 0:
-            if sign != 0 and s != sign and last_t is not None and last_e is not None:
-                crossings.append(last_t + (t - last_t) * (last_e / (last_e - x)) if last_e != x else t)
+            if sign != 0 and s != sign and have_last:
+                c = last_t + (t - last_t) * (last_e / (last_e - x)) if last_e != x else t
+                if n_cross == 0:
+                    first_cross = c
+                last_cross = c
+                n_cross += 1
             sign = s
-            last_t, last_e = t, x
-    period = None
-    if len(crossings) >= 2:
-        period = 2.0 * (crossings[-1] - crossings[0]) / (len(crossings) - 1)
+            last_t = t
+            last_e = x
+            have_last = True
+    period = nan
+    if n_cross >= 2:
+        period = 2.0 * (last_cross - first_cross) / (n_cross - 1)
     # Lag-1 autocorrelation of the residual: a smooth swing of period P gives about cos(2 pi / P)
     # (0.87 for 12 min); minute-to-minute noise gives about 0.
-    r1 = sum([a * b for a, b in zip(e, e[1:], strict=False)]) / (sd * sd * n) if sd > 0 else 0.0
+    r1 = 0.0
+    if sd > 0:
+        sab = 0.0
+        for j in range(n - 1):
+            sab += e[j] * e[j + 1]
+        r1 = sab / (sd * sd * n)
     if abs(trend) >= PERSIST_DEG and abs(trend) >= 1.5 * amp:
-        return Pattern("persistent", trend, None, None)
-    if (len(crossings) >= OSC_MIN_CROSSINGS and amp >= OSC_MIN_DEG and r1 >= OSC_MIN_AUTOCORR
-            and period is not None and period >= OSC_MIN_PERIOD_MIN):
-        return Pattern("oscillating", trend, period, amp)
+        return 1, trend, nan, nan
+    if (n_cross >= OSC_MIN_CROSSINGS and amp >= OSC_MIN_DEG and r1 >= OSC_MIN_AUTOCORR
+            and n_cross >= 2 and period >= OSC_MIN_PERIOD_MIN):
+        return 2, trend, period, amp
     # Yamartino spread of the last ten points (calc.wind.yamartino_sigma_deg over the same sums)
-    ss = cs = 0.0
+    ss = 0.0
+    cs = 0.0
     k_dirs = 0
-    for tc in trig[-10:]:
-        if tc is not None:
-            ss += tc[0]
-            cs += tc[1]
+    for j in range(max(0, n - 10), n):
+        if fin[j]:
+            ss += sn[j]
+            cs += cn[j]
             k_dirs += 1
-    y = yamartino_from_sums(ss / k_dirs, cs / k_dirs) if k_dirs else math.nan
-    return Pattern("steady" if y <= STEADY_SPREAD_DEG else "unsettled", trend, None, None)
+    if k_dirs == 0:
+        return 4, trend, nan, nan  # NaN spread: not steady
+    ms = ss / k_dirs
+    mc = cs / k_dirs
+    eps = min(math.sqrt(max(0.0, 1.0 - (ms * ms + mc * mc))), 1.0)
+    y = math.asin(eps) * (1.0 + _YAM_B * math.pow(eps, cube)) * _RAD2DEG
+    return (3 if y <= STEADY_SPREAD_DEG else 4), trend, nan, nan
+
+
+_pattern = njit(cache=True)(_pattern_py) if njit is not None else _pattern_py
 
 
 class CourseMonitor:
@@ -277,7 +372,6 @@ class CourseMonitor:
         # sum speed, n speeds]; windows add up the last k buckets (trigonometry once per record).
         self.buckets: deque[list[float]] = deque(maxlen=max(WINDOWS_MIN) + 2)
         self.minutes: deque[tuple[float, float]] = deque(maxlen=PATTERN_MIN)
-        self._minute_trig: deque[tuple[float, float] | None] = deque(maxlen=PATTERN_MIN)  # _trig of each
         self.pattern_kind = "unknown"  # the reported (debounced) pattern
         self.pattern_candidate = "unknown"
         self.pattern_count = 0
@@ -351,18 +445,12 @@ class CourseMonitor:
         sums = self._sums(now)
         one_dir = _dir_of(*sums[0])
         self.minutes.append((now, one_dir))
-        self._minute_trig.append(_trig(one_dir))
         d10, spread10, speed10, n10 = _stat_fields(*sums[-1])  # (its WindowStat only for a report)
         shift = None if d10 is None else angle_diff_deg(d10, self.axis_deg)
         # The pattern needs tens of minutes to change: analyse every PATTERN_EVERY_MIN data minutes
         # (chosen by the minute's number, so replay and restore agree), believe it after PATTERN_HOLD.
         if int(now // 60.0) % PATTERN_EVERY_MIN == 0:
-            if len(self._minute_trig) == len(self.minutes):
-                pts = [m for m in self.minutes if m[1] == m[1]]
-                pat = _analyse(pts, [tc for m, tc in zip(self.minutes, self._minute_trig, strict=True)
-                                     if m[1] == m[1]])
-            else:  # (minutes set from outside)
-                pat = analyse_pattern(list(self.minutes))
+            pat = _pattern_of(self.minutes, len(self.minutes))
             self.last_pattern = pat
             if pat.kind == self.pattern_candidate:
                 self.pattern_count += 1
@@ -426,7 +514,6 @@ class CourseMonitor:
     def restore(self, s: dict[str, Any]) -> None:
         self.buckets = deque(([float(x) for x in b] for b in s["buckets"]), maxlen=self.buckets.maxlen)
         self.minutes = deque(((_f(a), _f(b)) for a, b in s["minutes"]), maxlen=PATTERN_MIN)
-        self._minute_trig = deque((_trig(d) if d == d else None for _, d in self.minutes), maxlen=PATTERN_MIN)
         self.pattern_kind, self.pattern_candidate, self.pattern_count = s["pattern"]
         self.last_pattern = Pattern(*s["last_pattern"])
         self.breeze_run_start, self.breeze_run_len, self.breeze_fail, self.new_breeze_since = s["breeze"]

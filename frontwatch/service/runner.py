@@ -33,6 +33,7 @@ from ..config import NetworkConfig
 from ..engine import BATCH_MIN, Engine
 from ..errors import DecodeError
 from ..events import PassageEvent
+from ..network.race import analyse_pattern
 from ..obs import CANONICAL, Observation, Records, decode_payload_records
 from .hub import DashboardHub
 from .metrics import ServiceMetrics
@@ -175,6 +176,7 @@ class Service:
             for o in made_up:
                 eng.feed(o)
             Engine(self.config).feed_many(made_up)  # the batch path's compiled scan too (gateway chunks)
+            analyse_pattern([(o.time, o.wind_dir_deg) for o in made_up[:40]])  # the race monitor's kernel
         except Exception:  # the real core will report its own trouble, record by record
             log.debug("core warm-up failed", exc_info=True)
         dt = time.perf_counter() - t0

@@ -195,7 +195,8 @@ async def service_drain(cfg: NetworkConfig, url: str, client_id: str, prefix: st
     t0 = time.perf_counter()
     run = asyncio.create_task(svc.run(stop))
     t_first = t_all = 0.0
-    while svc.taken < n or svc.inbox or svc.store.unpublished(1):
+    settled = getattr(svc, "settled", None)  # (older trees: no store thread, the outbox says it)
+    while svc.taken < n or (not settled() if settled else (svc.inbox or svc.store.unpublished(1))):
         if run.done():
             run.result()
         await asyncio.sleep(0.002)

@@ -123,4 +123,4 @@ async def feed_in_steps(svc, messages, settings, step: int = 400, timeout: float
         await publish_messages(part, settings)
         target = base + k + len(part)
         assert await wait_until(lambda t=target: svc.taken >= t, timeout), (svc.taken, target)
-    assert await wait_until(lambda: not svc.store.unpublished(1), timeout)
+    assert await wait_until(svc.settled, timeout)

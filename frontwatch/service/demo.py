@@ -165,7 +165,7 @@ async def _drained(svc: Service, n: int, timeout: float = 30.0) -> None:
     loop = asyncio.get_running_loop()
     end = loop.time() + timeout
     while loop.time() < end:
-        if svc.taken >= n and not svc.inbox and not svc.store.unpublished(1):
+        if svc.taken >= n and svc.settled():
             return
         await asyncio.sleep(0.1)
 

@@ -124,6 +124,18 @@ def test_accelerated_eta_hand_worked() -> None:
     assert accelerated_eta(0.0, 3600.0, 0.0) == 3600.0
 
 
+def test_default_speed_up_doubles_in_four_hours_hand_worked() -> None:
+    """The default rate reads Linacre & Geerts (1997)'s doubling ("from under 3 to over 6 m/s") as
+    spread over the four hours from a late-morning onset to mid-afternoon: at 0.25 per hour the
+    speed is 2 v after 4 h, when the front has covered 4 + 0.25 x 16 / 2 = 6 constant-speed hours;
+    8 constant-speed hours then take 4 + (8 - 6) / 2 = 5 h (hand-worked)."""
+    from frontwatch.network.fit import accelerated_eta
+
+    h = 3600.0
+    assert accelerated_eta(0.0, 6 * h) == pytest.approx(4 * h, rel=1e-12)
+    assert accelerated_eta(0.0, 8 * h) == pytest.approx(5 * h, rel=1e-12)
+
+
 def test_accelerated_eta_stops_at_the_end_hour_hand_worked() -> None:
     """Hand-worked: a = 0.2 per hour, the speed-up ends 1 h after t_ref (speed then 1.2 v). In that
     hour the front covers 1 + 0.2 / 2 = 1.1 constant-speed hours; of 3 constant-speed hours the
@@ -215,3 +227,30 @@ def test_two_stations_give_the_speed_along_the_prior_heading() -> None:
     g = fit_front([(0.0, 0.0, 0.0), (-6000.0, 0.0, 2000.0)], Prior(1.0, 270.0, 0.7, 20.0))
     assert g is not None
     assert g.speed_ms == pytest.approx(3.0, rel=0.05) and g.heading_deg == pytest.approx(270.0, abs=0.1)
+
+
+def test_overdue_counts_from_the_constant_speed_eta() -> None:
+    """A front seen at four stations moving west at 2.5 m/s (t = -x / 2.5, exact) and a site 60 km
+    west: the assumed speed-up puts the ETA well before the constant-speed one (24000 s). Silence at
+    the site's live station past the sped-up ETA is no stall (fronts also keep their speed): the site
+    is 'not_expected' (overdue) only past the constant-speed ETA plus the margin."""
+    from frontwatch.network.forecast import EXPECTED, NOT_EXPECTED, forecast_for_site
+    from frontwatch.network.track import OVERDUE_MIN_S, OVERDUE_SIGMAS, Arrival, Front
+
+    fr = Front(key="f")
+    for sid, x, y in (("A", 0.0, 0.0), ("B", -10_000.0, 8000.0), ("C", -20_000.0, -8000.0), ("D", -30_000.0, 0.0)):
+        t = -x / 2.5
+        fr.arrivals[sid] = Arrival(sid, x, y, t, t + 300.0, 0.9, 270.0, 90.0, 270.0, 2.0, 4.0, 6.0, -2.0, 24.0)
+    fr.refit()
+    assert fr.fit is not None and fr.basis == "fit"
+    eta, eta_lin, sd = fr.fit.predict(-60_000.0, 0.0)
+    assert eta_lin == pytest.approx(24_000.0, abs=1.0)
+    margin = max(OVERDUE_MIN_S, OVERDUE_SIGMAS * sd)
+    assert eta_lin - eta > margin  # the old rule (from the sped-up ETA) would have called it overdue
+
+    def status(now: float) -> str:
+        return forecast_for_site("s", -60_000.0, 0.0, fr, now, None, None, station_up=True).status
+
+    assert status(eta + margin + 60.0) == EXPECTED
+    assert status(eta_lin + margin - 60.0) == EXPECTED
+    assert status(eta_lin + margin + 60.0) == NOT_EXPECTED

@@ -196,7 +196,10 @@ def forecast_for_site(
         # The fit puts the site behind where the front started (or the front does not move).
         return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
                             reason="not_on_path", **common)
-    if station_up and now > eta + max(OVERDUE_MIN_S, OVERDUE_SIGMAS * sd):
+    # Overdue counts from the later of the sped-up and the constant-speed ETAs: the speed-up is an
+    # assumption (a front that keeps its speed is no sign of a stall), and the stations' own
+    # deadlines (track._set_deadlines) count from the constant-speed prediction too.
+    if station_up and now > max(eta, eta_lin) + max(OVERDUE_MIN_S, OVERDUE_SIGMAS * sd):
         return SiteForecast(status=NOT_EXPECTED, eta=None, eta_earliest=None, eta_latest=None,
                             reason="overdue", **common)
     if day_end is not None and eta > day_end:

@@ -22,7 +22,7 @@ from __future__ import annotations
 
 import math
 from collections import deque
-from collections.abc import Iterable
+from collections.abc import Collection
 from dataclasses import dataclass
 from itertools import chain
 from typing import Any
@@ -197,11 +197,10 @@ def analyse_pattern(minute_dirs: list[tuple[float, float]]) -> Pattern:
     return _pattern_of(minute_dirs)
 
 
-def _pattern_of(minute_dirs: Iterable[tuple[float, float]], n: int | None = None) -> Pattern:
+def _pattern_of(minute_dirs: Collection[tuple[float, float]]) -> Pattern:
     """analyse_pattern through the compiled kernel: (t, dir) pairs (NaN directions are skipped)."""
-    seq = minute_dirs if n is not None else list(minute_dirs)
-    m = len(seq) if n is None else n  # type: ignore[arg-type]
-    code, tr, pe, am = _pattern(np.fromiter(chain.from_iterable(seq), float, 2 * m), 2.0, 3.0)
+    flat = np.fromiter(chain.from_iterable(minute_dirs), float, 2 * len(minute_dirs))
+    code, tr, pe, am = _pattern(flat, 2.0, 3.0)
     trend, period, amp = float(tr), float(pe), float(am)  # (plain floats from the uncompiled kernel too)
     if code == 0:
         return Pattern("unknown", None, None, None)
@@ -450,7 +449,7 @@ class CourseMonitor:
         # The pattern needs tens of minutes to change: analyse every PATTERN_EVERY_MIN data minutes
         # (chosen by the minute's number, so replay and restore agree), believe it after PATTERN_HOLD.
         if int(now // 60.0) % PATTERN_EVERY_MIN == 0:
-            pat = _pattern_of(self.minutes, len(self.minutes))
+            pat = _pattern_of(self.minutes)
             self.last_pattern = pat
             if pat.kind == self.pattern_candidate:
                 self.pattern_count += 1

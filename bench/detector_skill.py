@@ -24,6 +24,7 @@ from frontwatch.sim import generate, preset  # noqa: E402
 VARIANTS = {
     "ordinary": ("ordinary", {}),
     "noisy": ("noisy", {}),
+    "noisy_sensors": ("noisy_sensors", {}),
     "smeared": ("smeared", {}),
     "smeared_blind": ("smeared", {"declare_averaging": False}),
     "south": ("south", {}),

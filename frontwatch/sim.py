@@ -48,7 +48,8 @@ class ScenarioSpec:
     hemisphere: str = "north"  # "south": latitudes < 0, onshore wind backs through the afternoon
     shore: str = "straight"  # "bay": a curved shore, each station facing its own way
     start_date: str | None = None  # local date of day 0; default a midsummer date of the hemisphere
-    noise_scale: float = 1.0  # 1 = ordinary sensors and turbulence, 2 = doubled
+    noise_scale: float = 1.0  # 1 = ordinary sensors (and turbulence, unless set apart below), 2 = doubled
+    turbulence_scale: float | None = None  # the air's turbulence and wander apart; None = noise_scale
     weak_inland: bool = False  # breeze signatures fade within ~10 km instead of ~35 km
     smeared_fraction: float = 0.0  # share of stations reporting a 10-minute running-mean wind
     declare_averaging: bool = True  # write wind_averaging_min = 10 for those (False: test blind)
@@ -61,8 +62,8 @@ class ScenarioSpec:
             raise ValueError("days and stations must be at least 1")
         if not 0.0 <= self.smeared_fraction <= 1.0:
             raise ValueError("smeared_fraction must be within 0..1")
-        if self.noise_scale < 0 or self.fault_rate < 0:
-            raise ValueError("noise_scale and fault_rate must not be negative")
+        if self.noise_scale < 0 or self.fault_rate < 0 or (self.turbulence_scale or 0.0) < 0:
+            raise ValueError("noise_scale, turbulence_scale and fault_rate must not be negative")
         for d in self.plan or ():
             parse_day(d)
         if self.start_date is not None:
@@ -75,6 +76,7 @@ class ScenarioSpec:
 PRESETS: dict[str, dict[str, Any]] = {
     "ordinary": {},
     "noisy": {"noise_scale": 2.0, "weak_inland": True},
+    "noisy_sensors": {"noise_scale": 2.0, "turbulence_scale": 1.0, "weak_inland": True},
     "smeared": {"smeared_fraction": 0.3},
     "south": {"hemisphere": "south"},
     "curved": {"shore": "bay"},
@@ -212,7 +214,7 @@ def generate(spec: ScenarioSpec | None = None) -> Scenario:
     no_rain = r_set.random(n) < 0.2
     no_pres[0] = no_rain[0] = False
     exposure = r_set.uniform(0.65, 1.15, n)  # sheltered to open masts (from memory)
-    rep = observe(fields, r_noise, spec.noise_scale, smeared, no_pres, no_rain, exposure)
+    rep = observe(fields, r_noise, spec.noise_scale, smeared, no_pres, no_rain, exposure, spec.turbulence_scale)
     ids = [s.id for s in setting.stations]
     faults = add_faults(rep, r_fault, clock, ids, spec.fault_rate) if spec.fault_rate > 0 else []
     table = to_table(rep, clock, ids, r_fault, spec.fault_rate, faults)

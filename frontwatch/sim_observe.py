@@ -56,28 +56,37 @@ def running_max(a: np.ndarray, window: int) -> np.ndarray:
 
 
 def observe(fields: Fields, rng: np.random.Generator, noise_scale: float, smeared: np.ndarray,
-            no_pressure: np.ndarray, no_rain: np.ndarray, exposure: np.ndarray | None = None) -> Reported:
+            no_pressure: np.ndarray, no_rain: np.ndarray, exposure: np.ndarray | None = None,
+            turbulence_scale: float | None = None) -> Reported:
     """Add turbulence and sensor noise, smear the wind of `smeared` stations, quantise.
 
-    `exposure` (per station) scales the wind a station sees: below 1 for a sheltered mast.
+    `noise_scale` scales the sensors' own (white) noise; `turbulence_scale` (default: the same)
+    the air's: the wind's turbulence, the minute-to-minute wander of temperature and dewpoint
+    (persistent, AR(1)) and the spread of the gusts. `exposure` (per station) scales the wind a
+    station sees: below 1 for a sheltered mast.
     """
     f = fields
     shape = f.shape
     s = noise_scale
+    a = noise_scale if turbulence_scale is None else turbulence_scale
     solar = f.solar[None, :]
     ex = np.ones((shape[0], 1)) if exposure is None else np.asarray(exposure, dtype=float)[:, None]
     mu, mv = f.u * ex, f.v * ex
     mean_speed = np.hypot(mu, mv)
-    sigma = s * (0.12 + 0.18 * solar + (0.12 + 0.08 * solar) * mean_speed)  # quieter at night
+    sigma = a * (0.12 + 0.18 * solar + (0.12 + 0.08 * solar) * mean_speed)  # quieter at night
     u = mu + sigma * ar1(rng, shape, 0.8)
     v = mv + sigma * ar1(rng, shape, 0.8)
-    temp = f.temp + s * ((0.06 + 0.12 * solar) * ar1(rng, shape, 0.9) + 0.03 * rng.standard_normal(shape))
-    dew = f.dew + s * (0.12 * ar1(rng, shape, 0.9) + 0.05 * rng.standard_normal(shape))
+    if a == s:  # one scale: the arithmetic of before, so existing scenarios stay bit for bit the same
+        temp = f.temp + s * ((0.06 + 0.12 * solar) * ar1(rng, shape, 0.9) + 0.03 * rng.standard_normal(shape))
+        dew = f.dew + s * (0.12 * ar1(rng, shape, 0.9) + 0.05 * rng.standard_normal(shape))
+    else:
+        temp = f.temp + a * (0.06 + 0.12 * solar) * ar1(rng, shape, 0.9) + s * 0.03 * rng.standard_normal(shape)
+        dew = f.dew + a * 0.12 * ar1(rng, shape, 0.9) + s * 0.05 * rng.standard_normal(shape)
     dew = np.minimum(dew, temp - 0.2)
     pres = f.pres + s * 0.03 * rng.standard_normal(shape)
 
     wdir, speed = direction_speed(u, v)
-    spread = np.clip(np.exp(0.2 * s * rng.standard_normal(shape)), 0.5, 2.0)
+    spread = np.clip(np.exp(0.2 * a * rng.standard_normal(shape)), 0.5, 2.0)
     excess = f.gustiness * (0.3 + (0.22 + 0.15 * solar) * speed) * spread
     gust = speed + excess + f.gust_add * ex
     if smeared.any():

@@ -329,3 +329,19 @@ def test_weak_inland_variant_fades_faster():
     assert far_ord > 15 and far_weak > 15
     assert r_weak < r_ord
     assert r_weak < 0.5
+
+
+def test_sensor_noise_can_be_doubled_apart_from_the_air_turbulence():
+    """`noisy_sensors` doubles the sensors' own white noise only: the wind (turbulence, gusts) is
+    the ordinary preset's to the bit, the temperature and dewpoint differ by little, and the
+    `noisy` preset's harsher doubling (the air's wander too) moves them much more."""
+    kw = dict(seed=12, days=2, stations=4, weak_inland=True)
+    ordinary = generate(preset("ordinary", **kw)).observations
+    sensors = generate(preset("noisy_sensors", **{k: v for k, v in kw.items() if k != "weak_inland"})).observations
+    both = generate(preset("noisy", **{k: v for k, v in kw.items() if k != "weak_inland"})).observations
+    for c in ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms"):
+        pd.testing.assert_series_equal(ordinary[c], sensors[c])
+    for c in ("temp_c", "dewpoint_c"):
+        d_sensors = float((sensors[c] - ordinary[c]).abs().mean())
+        d_both = float((both[c] - ordinary[c]).abs().mean())
+        assert 0.0 < d_sensors < 0.1 and d_both > 2 * d_sensors, (c, d_sensors, d_both)

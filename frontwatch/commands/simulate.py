@@ -12,13 +12,16 @@ def register(app: typer.Typer) -> None:
     def simulate(
         out: Path = typer.Option(..., "--out", help="Directory to write network.toml, observations.csv, "
                                  "labels.jsonl, fronts.jsonl, faults.jsonl, nuisances.jsonl, scenario.json."),
-        preset: str = typer.Option("ordinary", help="ordinary, noisy, smeared, south, curved or bench."),
+        preset: str = typer.Option("ordinary", help="ordinary, noisy, noisy_sensors, smeared, south, curved or bench."),
         seed: int | None = typer.Option(None, help="Random seed (the same seed gives the same files)."),
         days: int | None = typer.Option(None, min=1, help="Number of days."),
         stations: int | None = typer.Option(None, min=1, help="Number of stations."),
         plan: str | None = typer.Option(None, help="Comma-separated day kinds, cycled, e.g. "
                                         "'breeze,breeze_stall+land_breeze,cold_front,breeze+gust_front'."),
-        noise_scale: float | None = typer.Option(None, min=0.0, help="Sensor/turbulence noise, 1 = ordinary."),
+        noise_scale: float | None = typer.Option(None, min=0.0, help="Sensor noise (and turbulence, unless "
+                                                 "--turbulence-scale), 1 = ordinary."),
+        turbulence_scale: float | None = typer.Option(None, min=0.0, help="The air's turbulence and wander apart "
+                                                      "from the sensors' noise, 1 = ordinary."),
         weak_inland: bool | None = typer.Option(None, "--weak-inland/--strong-inland",
                                                 help="Breeze signatures fade quickly inland."),
         smeared_fraction: float | None = typer.Option(None, min=0.0, max=1.0,
@@ -41,7 +44,7 @@ def register(app: typer.Typer) -> None:
             spec = make_spec(
                 preset, seed=seed, days=days, stations=stations,
                 plan=tuple(p.strip() for p in plan.split(",") if p.strip()) if plan else None,
-                noise_scale=noise_scale, weak_inland=weak_inland, smeared_fraction=smeared_fraction,
+                noise_scale=noise_scale, turbulence_scale=turbulence_scale, weak_inland=weak_inland, smeared_fraction=smeared_fraction,
                 declare_averaging=None if averaging_key else False, hemisphere=hemisphere, shore=shore,
                 start_date=start_date, fault_rate=fault_rate)
             scenario = generate(spec)

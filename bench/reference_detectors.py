@@ -48,6 +48,7 @@ from frontwatch.timeutil import LocalClock  # noqa: E402
 VARIANTS: dict[str, tuple[str, dict[str, Any]]] = {
     "ordinary": ("ordinary", {}),
     "noisy": ("noisy", {}),
+    "noisy_sensors": ("noisy_sensors", {}),
     "smeared": ("smeared", {}),
     "south": ("south", {}),
     "curved": ("curved", {}),

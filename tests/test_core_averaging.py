@@ -101,3 +101,16 @@ def test_undeclared_running_mean_stations_detected_as_promptly_as_declared():
     assert delays[True] and len(delays[False]) >= len(delays[True]) - 1
     assert abs(float(np.median(delays[False])) - float(np.median(delays[True]))) <= 1.0, delays
     assert out[False].overall.csi >= out[True].overall.csi - 0.05
+
+
+def test_compiled_sums_equal_the_same_code_run_as_python():
+    from frontwatch.detect.station import _smooth_sums, _smooth_sums_py
+
+    rng = np.random.default_rng(3)
+    for n in (0, 5, 21, 50, 64):
+        u, v = rng.standard_normal(n) * 3, rng.standard_normal(n)
+        if n:
+            u[rng.integers(n)] = np.nan
+        assert _smooth_sums(u, v) == _smooth_sums_py(u, v)
+    s1, n1, s10, n10 = _smooth_sums_py(np.arange(12.0), np.zeros(12))
+    assert (s1, n1, s10, n10) == (11.0, 22, 200.0, 4)  # u: 11 steps of 1, 2 of 10; v: all 0

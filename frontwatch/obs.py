@@ -9,8 +9,9 @@ from __future__ import annotations
 import functools
 import json
 import math
-from collections.abc import Callable, Iterable, Mapping
+from collections.abc import Callable, Iterable, Mapping, Sequence
 from datetime import tzinfo
+from operator import itemgetter
 from typing import Any, NamedTuple
 
 from .calc.moisture import dewpoint_from_rh
@@ -291,17 +292,21 @@ def _loads(payload: bytes | str) -> tuple[Any, bool]:
 _BIG = 2.0**63  # floats from here on may be orjson's reading of a huge integer: left to the general path
 _NUMERIC = {float, int, type(None)}
 _FLOAT_ONLY = {float}
+_FLOAT_OR_NULL = {float, type(None)}
+_DICT_ONLY = {dict}
+_STR_ONLY = {str}
+_FAST_KEYS = frozenset(("station", "time", *CANONICAL))
 _INT_EXACT = 2**53
 
 
 class Records:
     """Decoded records held as columns, what a gateway's uniform array decodes to: station ids,
-    times (epoch s) and the canonical fields in CANONICAL order, lists of one length. The same
+    times (epoch s) and the canonical fields in CANONICAL order, sequences of one length. The same
     records as the Observations `observations()` makes; the core's batch path takes the columns."""
 
     __slots__ = ("station", "time", "values")
 
-    def __init__(self, station: list[str], time: list[float], values: list[list[float]]) -> None:
+    def __init__(self, station: Sequence[str], time: Sequence[float], values: list[Sequence[float]]) -> None:
         self.station = station
         self.time = time
         self.values = values
@@ -320,52 +325,55 @@ def _fast_array(items: list[Any], topic_station: str | None,
                 may_speak_for: Callable[[str], bool] | None) -> Records | None:
     """A uniform array of canonical records (all dicts with the same canonical keys, plain numbers or
     null, whole-second UTC times, stations the topic may speak for) decoded column by column: what
-    `_fast_record` gives record by record. None for anything else (the record loop takes it)."""
+    `_fast_record` gives record by record. None for anything else (the record loop takes it).
+
+    The columns are cut out and checked whole, in C (itemgetter, zip, set, sum, min, max), not
+    value by value in Python: that was most of a gateway array's decoding time."""
     first = items[0]
     if type(first) is not dict:
         return None
-    keys = list(first)
-    if "station" not in first or "time" not in first or not all(k in _FAST_INDEX for k in keys
-                                                                  if k != "station" and k != "time"):
+    keys = tuple(first)
+    if "station" not in first or "time" not in first or not _FAST_KEYS.issuperset(keys):
         return None
-    # every record a dict with as many keys as the first, and (below) each of the first's keys
-    if set(map(type, items)) != {dict} or set(map(len, items)) != {len(keys)}:
+    # every record a dict with as many keys as the first, and (itemgetter) each of the first's keys
+    if set(map(type, items)) != _DICT_ONLY or set(map(len, items)) != {len(keys)}:
         return None
     try:
-        stations = [r["station"] for r in items]
-        texts = [r["time"] for r in items]
-        raw_cols = {k: [r[k] for r in items] for k in keys if k != "station" and k != "time"}
+        by_key = dict(zip(keys, zip(*map(itemgetter(*keys), items), strict=True), strict=True))
     except KeyError:
         return None
+    stations: tuple[Any, ...] = by_key["station"]
+    texts: tuple[Any, ...] = by_key["time"]
+    if set(map(type, stations)) != _STR_ONLY or set(map(type, texts)) != _STR_ONLY:
+        return None  # (an id that is not text, even one that does not hash: the record loop refuses it alone)
     for st in dict.fromkeys(stations):
-        if type(st) is not str or not st or st[0].isspace() or st[-1].isspace():
+        if not st or st[0].isspace() or st[-1].isspace():
             return None
         if topic_station is not None and st != topic_station and \
                 not (may_speak_for is not None and may_speak_for(st)):
             return None  # refusals are the record loop's to make, in order
     seen = _time_seen
     for raw in dict.fromkeys(texts):
-        if type(raw) is not str:
-            return None
         if raw not in seen and _parse_time_cached(raw) is None:
             return None
     try:
-        times = [seen[x] for x in texts]
+        times = list(map(seen.__getitem__, texts))
     except KeyError:  # the cache was cleared part-way (more than 4096 distinct times in one array)
         return None
     n = len(items)
-    cols: list[list[float]] = []
-    isfinite = math.isfinite
+    cols: list[Sequence[float]] = []
     for name in CANONICAL:
-        col = raw_cols.get(name)
+        col: Sequence[Any] | None = by_key.get(name)
         if col is None:
             cols.append([NAN] * n)
             continue
         types = set(map(type, col))
         if types == _FLOAT_ONLY:
-            if not (all(map(isfinite, col)) and min(col) > -_BIG and max(col) < _BIG):
-                return None  # NaN or infinite: refused by the general path (or absurdly large)
-        elif types.issubset(_NUMERIC):
+            nums = col
+        elif types == _FLOAT_OR_NULL:
+            nums = [x for x in col if x is not None]
+            col = [NAN if x is None else x for x in col]
+        elif types.issubset(_NUMERIC):  # integers among them (rare): value by value
             for x in col:
                 if type(x) is float:
                     if not -_BIG < x < _BIG:
@@ -373,14 +381,21 @@ def _fast_array(items: list[Any], topic_station: str | None,
                 elif type(x) is int and not -_INT_EXACT <= x <= _INT_EXACT:
                     return None
             col = [NAN if x is None else float(x) for x in col]
+            nums = [x for x in col if x == x]
         else:
             return None
-        if name == "wind_dir_deg":
-            vals = [x for x in col if x == x]
-            if vals and (min(vals) < 0.0 or max(vals) > 360.0):
+        if nums:
+            # A float sum is finite only where every term is (terms below _BIG cannot overflow it):
+            # one sum finds a NaN or an infinity (refused by the general path).
+            total = sum(nums)
+            lo, hi = min(nums), max(nums)
+            if total - total != 0.0 or not -_BIG < lo <= hi < _BIG:
                 return None
-            if 0.0 in col or 360.0 in col:  # x % 360.0 is x on (0, 360); 360 -> 0 and -0.0 -> 0.0
-                col = [x % 360.0 for x in col]
+            if name == "wind_dir_deg":
+                if lo < 0.0 or hi > 360.0:
+                    return None
+                if 0.0 in col or 360.0 in col:  # x % 360.0 is x on (0, 360); 360 -> 0 and -0.0 -> 0.0
+                    col = [x % 360.0 for x in col]
         cols.append(col)
     return Records(stations, times, cols)
 

@@ -5,9 +5,10 @@ Generated arrays are mostly uniform canonical records, the shape the column path
 at most one near miss that must send the whole array back to the record loop or must be taken the
 same way by both: nulls, integers (small, beyond 2**53, beyond 64 bits), booleans, strings, NaN
 and Infinity tokens, -0.0 and 360 degrees, directions out of range, padded or non-text station
-ids, a missing or an extra key, another time form, stations the topic may not speak for.
-Observations must be equal field by field (NaN where NaN), with the same refusals by reason and
-message. The reference is the standard library's JSON reader and the project's general decoder.
+ids and times (a list or an object among them, which does not even hash), a missing or an extra
+key, another time form, stations the topic may not speak for. Observations must be equal field
+by field (NaN where NaN), with the same refusals by reason and message. The reference is the
+standard library's JSON reader and the project's general decoder.
 """
 
 from __future__ import annotations
@@ -72,7 +73,7 @@ NEAR_MISSES: list[tuple[str, Any]] = [
     ("station", " KB01"), ("station", ""), ("station", 7), ("station", "ZZ99"), ("time", "2026-01-14T02:00:00+00:00"),
     ("time", "2026-01-14T02:61:00Z"), ("time", 5), ("temp_c", 1e300), ("temp_c", 9.3e18), ("temp_c", -9.3e18),
     ("speed_extra", 1.0), ("rh_pct", 50.0), ("temp_f", 70.0), ("__missing__", "temp_c"), ("__missing__", "time"),
-    ("__not_dict__", 5), ("__not_dict__", 10**30), ("temp_c", [1.0]),
+    ("__not_dict__", 5), ("__not_dict__", 10**30), ("temp_c", [1.0]), ("station", ["KB01"]), ("time", {"t": 1}),
 ]
 TOKENS = (b"NaN", b"Infinity", b"-Infinity", b"1e400")
 

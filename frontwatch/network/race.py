@@ -199,7 +199,11 @@ def analyse_pattern(minute_dirs: list[tuple[float, float]]) -> Pattern:
 
 def _pattern_of(minute_dirs: Collection[tuple[float, float]]) -> Pattern:
     """analyse_pattern through the compiled kernel: (t, dir) pairs (NaN directions are skipped)."""
-    flat = np.fromiter(chain.from_iterable(minute_dirs), float, 2 * len(minute_dirs))
+    return _pattern_of_flat(np.fromiter(chain.from_iterable(minute_dirs), float, 2 * len(minute_dirs)))
+
+
+def _pattern_of_flat(flat: np.ndarray) -> Pattern:
+    """_pattern_of for the pairs laid out flat (t0, dir0, t1, dir1, ...) in a contiguous array."""
     code, tr, pe, am = _pattern(flat, 2.0, 3.0)
     trend, period, amp = float(tr), float(pe), float(am)  # (plain floats from the uncompiled kernel too)
     if code == 0:
@@ -371,6 +375,11 @@ class CourseMonitor:
         # sum speed, n speeds]; windows add up the last k buckets (trigonometry once per record).
         self.buckets: deque[list[float]] = deque(maxlen=max(WINDOWS_MIN) + 2)
         self.minutes: deque[tuple[float, float]] = deque(maxlen=PATTERN_MIN)
+        # The same minutes flat for the pattern kernel, each written twice (at its slot and
+        # PATTERN_MIN slots on), so the last PATTERN_MIN are always one contiguous slice: the
+        # kernel's input without rebuilding an array from the deque every analysis.
+        self._ring = np.empty(4 * PATTERN_MIN)
+        self._ring_n = 0  # minutes written to the ring so far
         self.pattern_kind = "unknown"  # the reported (debounced) pattern
         self.pattern_candidate = "unknown"
         self.pattern_count = 0
@@ -403,6 +412,22 @@ class CourseMonitor:
             b[1] += math.sin(r)
             b[2] += math.cos(r)
             b[3] += 1
+
+    def _remember_minute(self, t: float, d: float) -> None:
+        self.minutes.append((t, d))
+        i = 2 * (self._ring_n % PATTERN_MIN)
+        r = self._ring
+        r[i] = r[i + 2 * PATTERN_MIN] = t
+        r[i + 1] = r[i + 1 + 2 * PATTERN_MIN] = d
+        self._ring_n += 1
+
+    def _minute_array(self) -> np.ndarray:
+        """self.minutes flat, (t0, dir0, t1, dir1, ...), as a view of the ring."""
+        n = self._ring_n
+        if n <= PATTERN_MIN:
+            return self._ring[:2 * n]
+        i = 2 * (n % PATTERN_MIN)
+        return self._ring[i:i + 2 * PATTERN_MIN]
 
     def window(self, now: float, minutes: int) -> WindowStat:
         """Statistics of the `minutes` whole data minutes before the one `now` falls in."""
@@ -443,13 +468,13 @@ class CourseMonitor:
         # ones only for a report (the same sums as windows(), so the same figures).
         sums = self._sums(now)
         one_dir = _dir_of(*sums[0])
-        self.minutes.append((now, one_dir))
+        self._remember_minute(now, one_dir)
         d10, spread10, speed10, n10 = _stat_fields(*sums[-1])  # (its WindowStat only for a report)
         shift = None if d10 is None else angle_diff_deg(d10, self.axis_deg)
         # The pattern needs tens of minutes to change: analyse every PATTERN_EVERY_MIN data minutes
         # (chosen by the minute's number, so replay and restore agree), believe it after PATTERN_HOLD.
         if int(now // 60.0) % PATTERN_EVERY_MIN == 0:
-            pat = _pattern_of(self.minutes)
+            pat = _pattern_of_flat(self._minute_array())
             self.last_pattern = pat
             if pat.kind == self.pattern_candidate:
                 self.pattern_count += 1
@@ -512,7 +537,10 @@ class CourseMonitor:
 
     def restore(self, s: dict[str, Any]) -> None:
         self.buckets = deque(([float(x) for x in b] for b in s["buckets"]), maxlen=self.buckets.maxlen)
-        self.minutes = deque(((_f(a), _f(b)) for a, b in s["minutes"]), maxlen=PATTERN_MIN)
+        self.minutes = deque(maxlen=PATTERN_MIN)
+        self._ring_n = 0
+        for a, b in s["minutes"]:
+            self._remember_minute(_f(a), _f(b))
         self.pattern_kind, self.pattern_candidate, self.pattern_count = s["pattern"]
         self.last_pattern = Pattern(*s["last_pattern"])
         self.breeze_run_start, self.breeze_run_len, self.breeze_fail, self.new_breeze_since = s["breeze"]

@@ -65,7 +65,8 @@ class Engine:
     def __init__(self, config: NetworkConfig) -> None:
         self.config = config
         self.stats = EngineStats()
-        prototype = StationDetector(config.detector, tz=config.tz, southern=config.southern)
+        prototype = StationDetector(config.detector, tz=config.tz, southern=config.southern,
+                                    alone=len(config.stations) == 1)
         self.detectors: dict[str, StationDetector] = {}
         self.qc: dict[str, StationQC] = {}
         for st in config.stations:

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import json
+import math
+from dataclasses import replace
 
 import pytest
 
@@ -251,3 +253,26 @@ def test_stations_reporting_every_5_or_10_minutes_still_show_their_fronts(every_
     assert rep.overall.a >= 10
     assert (rep.overall.csi or 0.0) >= 0.8
     assert lookalike_bf == 0
+
+
+def test_light_turn_into_the_sector_is_weak_and_a_lone_station_makes_no_weak_call():
+    s = config().detector
+    # Offshore 2.3 m/s (121 deg off the onshore bearing) turned into the sector (36 deg off) at
+    # 1.1 m/s: 0.89 m/s of onshore flow, under what stands on its own (corroborate.WEAK_ONSHORE_MS).
+    on = 1.1 * math.cos(math.radians(36.0))
+    light = _sig(dir_before=301.0, dir_after=216.0, speed_before=2.3, speed_after=1.1, spread_after=40.0,
+                 turn_deg=85.0, onshore_before=2.3 * math.cos(math.radians(121.0)), onshore_after=on,
+                 before_offset_deg=121.0, after_offset_deg=36.0, change_offset_deg=20.0, change_speed=2.4,
+                 z_onshore=6.0)
+    d = classify(light, s, 70.0, can_wait=False)
+    assert d.kind == "breeze_front" and d.note.startswith("weak")
+    # the same with the air barely marine (index under 1.5 times the minimum): no call
+    faint = replace(light, temp_change=-0.5, dewpoint_change=0.3)
+    assert classify(faint, s, 70.0, can_wait=False).kind != "breeze_front"
+    # a lone station: no network can confirm a weak call, so none is made and it keeps waiting
+    alone = classify(light, s, 70.0, can_wait=True, weak_ok=False)
+    assert alone.kind is None and alone.wait and "confirmable" in alone.note
+    # while a clear call (the same turn at 3 m/s onshore, settled) stands alone as before
+    clear = replace(light, speed_after=3.0, onshore_after=3.0 * math.cos(math.radians(36.0)), spread_after=20.0)
+    d = classify(clear, s, 70.0, can_wait=False, weak_ok=False)
+    assert d.kind == "breeze_front" and not d.note.startswith("weak")

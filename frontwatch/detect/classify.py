@@ -35,6 +35,10 @@ TIMED_Z = 5.0
 # from memory): a wind change ahead of the air's gets this many times the timing allowance, one behind
 # it (the air changing first, as under a cloud) only the allowance. 1.5 is a judgement, not searched.
 WIND_LEADS_FACTOR = 1.5
+# A light turn (see classify) is accepted with marine air of this many times
+# breeze_min_marine_index_c: between a clear turn's 1 and the air-alone paths' 2, since the wind
+# still says something. A judgement, set once.
+LIGHT_TURN_MARINE = 1.5
 
 
 @dataclass(frozen=True, slots=True)
@@ -88,7 +92,10 @@ def _logistic(x: float) -> float:
     return 1.0 / (1.0 + math.exp(-x))
 
 
-def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bool, averaging: int = 1) -> Decision:
+def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bool, averaging: int = 1,
+             weak_ok: bool = True) -> Decision:
+    """The kind of change `sig` is (or None: wait, or nothing). `weak_ok` False: a weak breeze-front
+    call cannot be confirmed (a network of one station), so none is made; a clear one may follow."""
     dT = _nz(sig.temp_change)
     dTd = _nz(sig.dewpoint_change)
     dp = _nz(sig.pressure_jump)
@@ -207,13 +214,21 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         sig.before_offset_deg - sig.after_offset_deg >= 60.0 and sig.after_offset_deg <= 90.0 and \
         sig.z_onshore >= 4.0 and _nz(sig.onshore_after) - _nz(sig.onshore_before) >= 2.0 and \
         sig.speed_after >= 1.5 and settled
-    wind_ok = wind_turned or marine_air_only or air_only or halted_offshore
+    # A light breeze behind a weak front: the wind turns out of the offshore half into the sector but
+    # carries under 1 m/s of onshore flow (0.5 at least), with clearly marine air. A weak call too:
+    # under 1 m/s of onshore flow marks it so for the network (corroborate.is_weak).
+    light_turn = came_onshore and not calm_after and sig.before_offset_deg > 90.0 and \
+        sig.before_offset_deg - sig.after_offset_deg >= 60.0 and sig.after_offset_deg <= halfwidth and \
+        0.5 <= _nz(sig.onshore_after) < 1.0 and sig.z_onshore >= 4.0 and sig_t and sig_d and \
+        marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
+    wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn
     # A call on less than a clear turn and clearly marine air is weak: corroborate.py recognises it
     # by the same marks in the event and asks the network. Its evidence counts half, so that a clear
     # front soon after is not taken for the same regime going on.
     weak = not ((wind_turned or marine_air_only) and thermal)
     failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
-                                    ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence), ("dry", dry)) if not ok]
+                                    ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence), ("dry", dry),
+                                    ("confirmable", weak_ok or not weak)) if not ok]
     if not failed and convective and can_wait:
         return Decision(None, 0.0, True, evidence, "breeze front? convective signs: waiting for a gust front")
     if not failed and weak and can_wait and sig.minutes_after < WEAK_PERSIST_MIN:

@@ -61,8 +61,9 @@ class StationDetector:
     """Online breeze-front detector for one station (see frontwatch.detect.changepoint/classify)."""
 
     def __init__(self, settings: DetectorSettings, tz: tzinfo | None = None, southern: bool = False,
-                 station: StationConfig | None = None) -> None:
+                 station: StationConfig | None = None, alone: bool = False) -> None:
         self.settings = settings
+        self.alone = alone  # the network's only station: no other can confirm a weak call
         self.tz = tz
         self.southern = southern
         self.station = station
@@ -91,7 +92,7 @@ class StationDetector:
 
     def clone(self, station: StationConfig) -> StationDetector:
         """A fresh detector for `station` with this prototype's settings and clock."""
-        return StationDetector(self.settings, self.tz, self.southern, station)
+        return StationDetector(self.settings, self.tz, self.southern, station, self.alone)
 
     # ------------------------------------------------------------------ the ring
     @property
@@ -197,7 +198,7 @@ class StationDetector:
             return None
         sig = self._signature(arr, list(self.ring) if from_ring else None, sp, o, now, baseline_s, dt, avg)
         can_wait = now - t_o < wait_s
-        dec = classify(sig, st, self.halfwidth, can_wait, avg)
+        dec = classify(sig, st, self.halfwidth, can_wait, avg, not self.alone)
         if dec.kind is None:
             self.pending = bool(dec.wait)
             if self.near_misses is not None and not dec.wait and dec.note.startswith("breeze front? not ") \

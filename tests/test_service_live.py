@@ -171,6 +171,44 @@ async def test_publisher_speed_follows_data_time(broker_url: str, prefix: str) -
     assert 0.45 <= dt < 2.0
 
 
+async def test_batch_publisher_delivers_in_order_and_leaves_aiomqtt_its_own_publishes(broker_url: str,
+                                                                                      prefix: str) -> None:
+    """The outputs' publisher (mqtt.BatchPublisher): a batch arrives whole, in order, with its retain
+    flags, and is confirmed; a publish through aiomqtt meanwhile still completes (the publisher took
+    over paho's acknowledgement callback and hands on what is not its own); once disconnected, each
+    item says why it was not sent instead of raising."""
+    from frontwatch.service.mqtt import BatchPublisher, make_client
+
+    got: list[tuple[str, bytes, bool]] = []
+    ready = asyncio.Event()
+    sub = asyncio.create_task(_collect(broker_url, prefix + "/out/#", got, ready))
+    await ready.wait()
+    items = [(f"{prefix}/out/{k % 3}", f"payload {k}".encode(), k % 2 == 0) for k in range(60)]
+    client = make_client(_settings(broker_url, prefix), client_id=None, persistent=False)
+    async with client:
+        outbox = BatchPublisher(client)
+        res, _ = await asyncio.gather(outbox.publish(items, 5.0),
+                                      client.publish(f"{prefix}/out/status", b"own", qos=1, timeout=5))
+        assert res == [None] * len(items)
+        assert not outbox._waiting
+    assert await wait_until(lambda: len(got) >= len(items) + 1, 5)
+    sub.cancel()
+    mine = [(t, p) for t, p, _ in got if not t.endswith("/status")]
+    assert mine == [(t, p) for t, p, _ in items]  # the subscriber's copies: live, so never flagged retained
+    assert [p for t, p, _ in got if t.endswith("/status")] == [b"own"]
+    # The retained ones: a newcomer gets each topic's last publish that had retain set.
+    late: list[tuple[str, bytes, bool]] = []
+    ready.clear()
+    sub = asyncio.create_task(_collect(broker_url, prefix + "/out/+", late, ready))
+    await ready.wait()
+    want = {t: (t, p, True) for t, p, r in items if r}
+    assert await wait_until(lambda: len(late) >= len(want), 5)
+    sub.cancel()
+    assert sorted(late) == sorted(want.values())
+    after = await outbox.publish(items[:3], 1.0)  # the connection is closed now
+    assert all(isinstance(e, aiomqtt.MqttError) for e in after)
+
+
 REPLAY_DATA = Path(__file__).resolve().parent.parent / "replay_data"
 
 

@@ -1,5 +1,6 @@
 """MQTT plumbing shared by the service and the publisher: client construction (identity, session,
-TLS, auth, last will), reconnect delays, and topic helpers."""
+TLS, auth, last will), reconnect delays, topic helpers, and the service's fast paths through paho
+(message callback, burst reads, corked acknowledgements, batch publishes)."""
 
 from __future__ import annotations
 
@@ -8,7 +9,7 @@ import contextlib
 import random
 import socket
 import ssl
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -226,6 +227,71 @@ def flush_writes(client: aiomqtt.Client) -> None:
         finally:
             if cork:
                 sock.setsockopt(socket.IPPROTO_TCP, _CORK, 0)  # type: ignore[union-attr, arg-type]
+
+
+class _Confirmations:
+    """The publishes of one batch still waiting for the broker's acknowledgement (mid -> index)."""
+
+    __slots__ = ("done", "index")
+
+    def __init__(self, done: asyncio.Future[None]) -> None:
+        self.done = done
+        self.index: dict[int, int] = {}
+
+    def confirm(self, mid: int) -> None:
+        self.index.pop(mid, None)
+        if not self.index and not self.done.done():
+            self.done.set_result(None)
+
+
+class BatchPublisher:
+    """QoS 1 publishes of a batch handed to paho at once, written as one corked send, and confirmed
+    together.
+
+    aiomqtt's publish() makes an event, a task and a timeout for every message and walks its list
+    of pending calls on each: about twice the rest of what a publish costs here (bench numbers in
+    the commit). Acknowledgements arrive through paho's on_publish callback, taken over from
+    aiomqtt while this publisher lives; those of publishes not made here (aiomqtt's own, e.g. the
+    status) are handed on to aiomqtt's handler as before. One per connection."""
+
+    def __init__(self, client: aiomqtt.Client) -> None:
+        self.client = client
+        self._waiting: dict[int, _Confirmations] = {}
+        pc = client._client
+        self._theirs = pc.on_publish
+        pc.on_publish = self._on_publish
+
+    def _on_publish(self, *args: Any) -> None:
+        # paho (callback API version 2) calls (client, userdata, mid, reason_code, properties)
+        c = self._waiting.pop(args[2], None)
+        if c is not None:
+            c.confirm(args[2])
+        elif self._theirs is not None:
+            self._theirs(*args)
+
+    async def publish(self, items: Sequence[tuple[str, bytes, bool]], timeout: float) -> list[BaseException | None]:
+        """Publish each (topic, payload, retain) at QoS 1, in order. For each: None once the broker
+        acknowledged it, else why not (refused by paho, or no acknowledgement within `timeout` s)."""
+        pc = self.client._client
+        out: list[BaseException | None] = [None] * len(items)
+        conf = _Confirmations(asyncio.get_running_loop().create_future())
+        for i, (topic, payload, retain) in enumerate(items):
+            info = pc.publish(topic, payload, 1, retain)
+            if info.rc != paho.MQTT_ERR_SUCCESS:
+                out[i] = aiomqtt.MqttCodeError(info.rc, "Could not publish message")
+                continue
+            conf.index[info.mid] = i
+            self._waiting[info.mid] = conf
+        if not conf.index:
+            return out
+        flush_writes(self.client)
+        try:
+            await asyncio.wait_for(conf.done, timeout)
+        except TimeoutError:
+            for mid, i in conf.index.items():
+                self._waiting.pop(mid, None)
+                out[i] = aiomqtt.MqttError("Operation timed out")
+        return out
 
 
 def station_of(topic: str, obs_prefix: str) -> str | None:

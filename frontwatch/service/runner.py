@@ -44,7 +44,16 @@ from ..network.race import analyse_pattern
 from ..obs import CANONICAL, Observation, Records, decode_payload_records
 from .hub import DashboardHub
 from .metrics import ServiceMetrics
-from .mqtt import Backoff, BurstReader, ack, flush_writes, make_client, receive_into, station_of
+from .mqtt import (
+    Backoff,
+    BatchPublisher,
+    BurstReader,
+    ack,
+    flush_writes,
+    make_client,
+    receive_into,
+    station_of,
+)
 from .settings import ServiceSettings
 from .store import Store, output_key, snapshot_text
 from .web import make_app
@@ -119,6 +128,7 @@ class Service:
         self.taken = 0  # messages taken by the core since start (for tests and the demo)
         self._n_in = 0  # messages accepted from the broker since start
         self._reader: BurstReader | None = None
+        self._outbox: BatchPublisher | None = None  # the connection's publisher of outputs
         # Reading pauses while READ_AHEAD messages or READ_AHEAD_BYTES of payload wait (the broker
         # keeps the rest: it may send far more than its in-flight window after a reconnect). A
         # queue_size below READ_AHEAD drops the oldest instead, as before.
@@ -311,6 +321,7 @@ class Service:
                     self._client = client
                     self._reader = BurstReader(client, lambda: self._n_in,
                                                self._inbox_full, READ_BURST)
+                    self._outbox = BatchPublisher(client)
                     self.metrics.connected.set(1)
                     if not first:
                         self.metrics.reconnects.inc()
@@ -336,6 +347,7 @@ class Service:
             finally:
                 self._client = None
                 self._reader = None
+                self._outbox = None
                 self.connected.clear()
                 self.metrics.connected.set(0)
             if self._stopping.is_set():
@@ -722,18 +734,20 @@ class Service:
 
         Publishes of a batch are in flight together (the client sends them in order); each is
         marked sent once the broker acknowledged it."""
+        outbox = self._outbox
+        if outbox is None or outbox.client is not client:  # (not the connection's: only in tests)
+            outbox = BatchPublisher(client)
         while True:
             pending = await self._store_call(self.store.unpublished)
             if not pending:
                 return
-            results = await asyncio.gather(
-                *(client.publish(p.topic, p.payload.encode(), qos=1, retain=p.retain) for p in pending),
-                return_exceptions=True)
+            results = await outbox.publish([(p.topic, p.payload.encode(), p.retain) for p in pending],
+                                           client.timeout)
             done: list[int] = []
             now = time.time()
             failure: BaseException | None = None
             for p, res in zip(pending, results, strict=True):
-                if isinstance(res, BaseException):
+                if res is not None:
                     failure = failure or res
                     continue
                 done.append(p.n)

@@ -517,7 +517,9 @@ class Service:
         self._unacked.extend(batch)
         journal = self._unjournalled
         outputs: list[tuple[str, str, dict[str, Any], bool, float]] = []
-        latest: dict[str, tuple[Observation, float]] = {}
+        # each station's newest record of the batch: (its message's records, index or -1 for an
+        # Observation, arrival); an Observation is made only for the winners, at the end
+        latest: dict[str, tuple[Records | Observation, int, float]] = {}
         refused: dict[str, int] = {}  # counted per batch, not per record (same totals)
         parts: list[Records | list[Observation]] = []  # each message's records, in arrival order
         starts: list[int] = []  # index (in the chunk's records) of each message's first record
@@ -534,12 +536,12 @@ class Service:
                 if not known.keys().isdisjoint(got.station):
                     journal.append((item.topic, item.payload))
                 for sid, i in dict(zip(got.station, range(len(got)), strict=True)).items():  # each station's last
-                    latest[sid] = (got.observation(i), received)
+                    latest[sid] = (got, i, received)
             else:
                 if any(o.station in known for o in got):
                     journal.append((item.topic, item.payload))
                 for o in got:
-                    latest[o.station] = (o, received)
+                    latest[o.station] = (o, -1, received)
             parts.append(got)
             starts.append(n_rec)
             arrived.append(received)
@@ -566,8 +568,9 @@ class Service:
         # (a batch is one message), a sample when catching up on a backlog.
         seen = m.station_seen
         shown = []
-        for sid, (o, received) in latest.items():
+        for sid, (rec, i, received) in latest.items():
             if sid in known:
+                o = rec.observation(i) if isinstance(rec, Records) else rec
                 seen[sid] = (received, o.time)
                 shown.append((o, flags.get(sid, ())))
         if shown:

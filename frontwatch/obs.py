@@ -297,6 +297,8 @@ _DICT_ONLY = {dict}
 _STR_ONLY = {str}
 _FAST_KEYS = frozenset(("station", "time", *CANONICAL))
 _INT_EXACT = 2**53
+# (half _BIG: a rounded sum, or one compensated as Python 3.12 sums, may fall just short of its largest term)
+_ABS_SUM_MAX = _BIG / 2
 
 
 class Records:
@@ -384,18 +386,19 @@ def _fast_array(items: list[Any], topic_station: str | None,
             nums = [x for x in col if x == x]
         else:
             return None
-        if nums:
-            # A float sum is finite only where every term is (terms below _BIG cannot overflow it):
-            # one sum finds a NaN or an infinity (refused by the general path).
-            total = sum(nums)
-            lo, hi = min(nums), max(nums)
-            if total - total != 0.0 or not -_BIG < lo <= hi < _BIG:
-                return None
-            if name == "wind_dir_deg":
-                if lo < 0.0 or hi > 360.0:
+        if name == "wind_dir_deg":
+            if nums:
+                # A float sum is finite only where every term is (directions cannot overflow it):
+                # it finds a NaN or an infinity (refused by the general path); min/max the range.
+                total = sum(nums)
+                if total - total != 0.0 or min(nums) < 0.0 or max(nums) > 360.0:
                     return None
                 if 0.0 in col or 360.0 in col:  # x % 360.0 is x on (0, 360); 360 -> 0 and -0.0 -> 0.0
                     col = [x % 360.0 for x in col]
+        elif not sum(map(abs, nums)) < _ABS_SUM_MAX:
+            # A sum of magnitudes is at least its largest term, and NaN or infinite if any term is:
+            # one pass refuses a NaN, an infinity or a value of magnitude _BIG (or an absurd total).
+            return None
         cols.append(col)
     return Records(stations, times, cols)
 

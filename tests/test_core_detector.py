@@ -6,6 +6,7 @@ import json
 import math
 from dataclasses import replace
 
+import numpy as np
 import pytest
 
 from frontwatch.engine import Engine
@@ -276,3 +277,67 @@ def test_light_turn_into_the_sector_is_weak_and_a_lone_station_makes_no_weak_cal
     clear = replace(light, speed_after=3.0, onshore_after=3.0 * math.cos(math.radians(36.0)), spread_after=20.0)
     d = classify(clear, s, 70.0, can_wait=False, weak_ok=False)
     assert d.kind == "breeze_front" and not d.note.startswith("weak")
+
+
+def _onshore_sig(before_off: float, after_off: float, early_off: float | None = None, **kw):
+    """Marine air (T -1.5, Td +1.2, both far beyond the noise) under a settled 4 m/s wind after,
+    `after_off` deg off the onshore bearing (0 deg here), `before_off` before (3 m/s) and
+    `early_off` 30-15 min before the onset (default: as before)."""
+    early_off = before_off if early_off is None else early_off
+    on_b = 3.0 * math.cos(math.radians(before_off))
+    on_a = 4.0 * math.cos(math.radians(after_off))
+    return _sig(dir_before=before_off, dir_after=after_off, speed_before=3.0, speed_after=4.0, spread_after=15.0,
+                turn_deg=abs(before_off - after_off), onshore_before=on_b, onshore_after=on_a,
+                before_offset_deg=before_off, after_offset_deg=after_off, change_offset_deg=40.0, change_speed=1.5,
+                z_onshore=1.0, early_dir=early_off, early_offset_deg=early_off, **kw)
+
+
+def test_marine_air_under_a_wind_already_onshore_is_weak_unless_the_wind_turned_in():
+    """An onshore large-scale wind leaves no distinct front (Arritt 1993, from memory): marine air
+    arriving under it is a weak call everywhere (a lone station makes none), unless the wind swung
+    from the sector's edge towards its middle, or turned onshore in the half hour before."""
+    from frontwatch.detect.classify import EDGE_TURN_DEG, edge_turn, recent_turn
+
+    s = config().detector
+    steady = _onshore_sig(20.0, 10.0)  # onshore all along
+    d = classify(steady, s, 70.0, can_wait=False)
+    assert d.kind == "breeze_front" and d.note.startswith("weak")
+    alone = classify(steady, s, 70.0, can_wait=False, weak_ok=False)
+    assert alone.kind != "breeze_front"
+    # from the sector's outer half (60 deg off, halfwidth 70) to 10 deg off: turned in
+    assert edge_turn(60.0, 10.0, 70.0) and not edge_turn(60.0, 60.0 - EDGE_TURN_DEG + 1, 70.0)
+    d = classify(_onshore_sig(60.0, 10.0), s, 70.0, can_wait=False, weak_ok=False)
+    assert d.kind == "breeze_front" and not d.note.startswith("weak")
+    # onshore for the last 15 minutes, but from the land (150 deg off) the quarter hour before
+    recent = _onshore_sig(20.0, 10.0, early_off=150.0)
+    assert recent_turn(recent, 70.0) and not recent_turn(steady, 70.0)
+    d = classify(recent, s, 70.0, can_wait=False, weak_ok=False)
+    assert d.kind == "breeze_front" and not d.note.startswith("weak")
+
+
+def test_event_reports_the_wind_from_before_a_turn_that_led_the_air():
+    """A station whose wind turns onshore 10 minutes before the marine air arrives: the event's
+    wind before is the offshore wind, not the already-turned one (frontwatch.detect.station)."""
+    from frontwatch.detect.station import StationDetector
+    from frontwatch.obs import Observation
+
+    cfg = parse_network({"network": {"name": "one", "utc_offset_hours": 0},
+                         "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0}]})
+    det = StationDetector(cfg.detector, tz=cfg.tz, station=cfg.stations[0], alone=True)
+    rng = np.random.default_rng(5)
+    t0 = 1815436800.0  # 2027-07-13T00:00Z (utc_offset 0: local midnight)
+    evs = []
+    for m in range(10 * 60, 16 * 60):
+        warm = 22.0 + 0.004 * (m - 600)
+        turned, air = m >= 13 * 60, m >= 13 * 60 + 10
+        wd = (180.0 if turned else 20.0) + rng.normal(0, 8)
+        ws = (4.0 if turned else 3.0) + rng.normal(0, 0.3)
+        T = warm - (1.5 if air else 0.0) + rng.normal(0, 0.05)
+        Td = 14.0 + (1.5 if air else 0.0) + rng.normal(0, 0.05)
+        ev = det.update(Observation("A", t0 + 60 * m, wd % 360, ws, ws + 2, T, Td, float("nan"), 0.0))
+        if ev is not None:
+            evs.append(ev)
+    bf = [e for e in evs if e.kind == "breeze_front"]
+    assert len(bf) == 1, [(e.kind, e.note) for e in evs]
+    assert abs((bf[0].wind_dir_before_deg - 20.0 + 180) % 360 - 180) < 30, bf[0]
+    assert abs((bf[0].wind_dir_after_deg - 180.0 + 180) % 360 - 180) < 30

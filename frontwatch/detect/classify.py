@@ -39,6 +39,9 @@ WIND_LEADS_FACTOR = 1.5
 # breeze_min_marine_index_c: between a clear turn's 1 and the air-alone paths' 2, since the wind
 # still says something. A judgement, set once.
 LIGHT_TURN_MARINE = 1.5
+# Degrees a wind from the sector's outer half must turn towards the onshore bearing to count as
+# turning onshore (edge_turn). A judgement, set once.
+EDGE_TURN_DEG = 40.0
 
 
 @dataclass(frozen=True, slots=True)
@@ -73,6 +76,8 @@ class Signature:
     depression_after: float = float("nan")  # T - Td of the recent air, degC (0 = saturated)
     change_times_min: tuple[float, ...] = ()  # each of T, Td, onshore wind: own change time vs onset
     sample_min: float = 1.0  # the station's reporting interval, minutes (change times come in these steps)
+    early_dir: float = float("nan")  # deg from, of the wind 30 to 15 minutes before the onset (NaN: calm)
+    early_offset_deg: float = 180.0  # |early_dir - onshore bearing| (180 when calm or unknown)
 
 
 @dataclass(frozen=True, slots=True)
@@ -90,6 +95,23 @@ def _nz(x: float, default: float = 0.0) -> float:
 
 def _logistic(x: float) -> float:
     return 1.0 / (1.0 + math.exp(-x))
+
+
+def edge_turn(before_offset_deg: float, after_offset_deg: float, halfwidth: float) -> bool:
+    """The wind turned from the outer half of the onshore sector (or beyond) at least EDGE_TURN_DEG
+    towards the onshore bearing: a turn onshore even where the wind before was, just, in the sector
+    (a sector's edge is a convention; a 10-minute running mean has half turned already)."""
+    return before_offset_deg >= 0.5 * halfwidth and before_offset_deg - after_offset_deg >= EDGE_TURN_DEG
+
+
+def recent_turn(sig: Signature, halfwidth: float) -> bool:
+    """The wind turned onshore in the half hour before the air changed: from outside the sector
+    (30 to 15 minutes before the onset) to inside it (the 15 minutes before), towards the onshore
+    bearing by at least EDGE_TURN_DEG. At a front the wind shift often leads the marine air by
+    several minutes (see WIND_LEADS_FACTOR); the passage then began with that turn, and the event
+    reports the wind from before it."""
+    return sig.before_offset_deg <= halfwidth < sig.early_offset_deg and \
+        sig.early_offset_deg - sig.after_offset_deg >= EDGE_TURN_DEG
 
 
 def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bool, averaging: int = 1,
@@ -224,8 +246,13 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn
     # A call on less than a clear turn and clearly marine air is weak: corroborate.py recognises it
     # by the same marks in the event and asks the network. Its evidence counts half, so that a clear
-    # front soon after is not taken for the same regime going on.
-    weak = not ((wind_turned or marine_air_only) and thermal)
+    # front soon after is not taken for the same regime going on. Marine air under a wind that was
+    # already onshore is weak too, at the shore as inland (an onshore large-scale wind leaves no
+    # distinct front, Arritt 1993; a shower's outflow nearby or a moist surge look the same), unless
+    # the wind swung in from the edge of the sector towards its middle (edge_turn) or turned onshore
+    # in the half hour before the air changed (recent_turn).
+    turned_in = edge_turn(sig.before_offset_deg, sig.after_offset_deg, halfwidth) or recent_turn(sig, halfwidth)
+    weak = not ((wind_turned or (marine_air_only and turned_in)) and thermal)
     failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
                                     ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence), ("dry", dry),
                                     ("confirmable", weak_ok or not weak)) if not ok]

@@ -29,6 +29,7 @@ from ..calc.density import BREEZE_FRONT_SPEEDS_MS
 from ..calc.geo import local_xy_m
 from ..config import NetworkConfig
 from ..events import PassageEvent
+from .classify import edge_turn
 
 COAST_MARGIN_KM = 2.0
 SAME_SHORE_DEG = 30.0
@@ -40,13 +41,15 @@ def is_weak(ev: PassageEvent, onshore_from_deg: float, halfwidth_deg: float, coa
     """True when a breeze-front event's signature is below what stands on its own. The classifier's
     paths that accept less (classify.py) leave these marks in the event: under 1 m/s of onshore flow
     ('halted_offshore', or 'air_only' under a stuck vane); no usable wind after
-    ('air_only'); inland, a wind already onshore before, so the air alone told ('marine_air_only': at
-    the shore, where the large-scale wind already blew from the water, that stands on its own)."""
+    ('air_only'); a wind already onshore before, so the air alone told ('marine_air_only'), except
+    at the shore where the wind swung from the sector's edge towards its middle (classify.edge_turn)."""
     if ev.wind_dir_after_deg is None or ev.speed_after_ms is None:
         return True
-    if not coastal and ev.wind_dir_before_deg is not None and \
-            abs((ev.wind_dir_before_deg - onshore_from_deg + 180.0) % 360.0 - 180.0) <= halfwidth_deg:
-        return True
+    if ev.wind_dir_before_deg is not None:
+        before = abs((ev.wind_dir_before_deg - onshore_from_deg + 180.0) % 360.0 - 180.0)
+        after = abs((ev.wind_dir_after_deg - onshore_from_deg + 180.0) % 360.0 - 180.0)
+        if before <= halfwidth_deg and not (coastal and edge_turn(before, after, halfwidth_deg)):
+            return True
     onshore = ev.speed_after_ms * math.cos(math.radians(ev.wind_dir_after_deg - onshore_from_deg))
     return onshore < WEAK_ONSHORE_MS
 

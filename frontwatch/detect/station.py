@@ -22,7 +22,7 @@ from ..events import PassageEvent
 from ..obs import Observation
 from ..timeutil import LocalClock
 from .changepoint import best_split
-from .classify import Signature, classify
+from .classify import Signature, classify, recent_turn
 from .gate import Gate
 
 njit: Any
@@ -222,7 +222,8 @@ class StationDetector:
         return PassageEvent(
             station=self.sid, kind=dec.kind, onset=float(t_o), detected_at=float(now),
             confidence=round(min(0.99, max(0.05, conf)), 3),
-            wind_dir_before_deg=None if sig.dir_before != sig.dir_before else sig.dir_before,
+            wind_dir_before_deg=_opt(sig.early_dir if dec.kind == "breeze_front" and recent_turn(sig, self.halfwidth)
+                                     else sig.dir_before),
             wind_dir_after_deg=None if sig.dir_after != sig.dir_after else sig.dir_after,
             speed_change_ms=_opt(sig.speed_after - sig.speed_before),
             temp_change_c=_opt(sig.temp_change), dewpoint_change_c=_opt(sig.dewpoint_change),
@@ -257,6 +258,7 @@ class StationDetector:
             z = (post - pre) / sp.sigma * np.sqrt(n_pre * n_post / np.maximum(n_pre + n_post, 1))
         # (rows: the ring as Python rows; the small parts below are cheaper in plain Python than in numpy)
         u0, v0 = _mean2(rows, wind_lo - off, o - off, _U, _V)
+        ue, ve = _mean2(rows, rain_lo - off, wind_lo - off, _U, _V)  # 30 to 15 minutes before the onset
         ur, vr = _mean2(rows, rec_lo - off, n - off, _U, _V)
         if averaging > 1 and ur == ur and u0 == u0:
             # The station reports an A-minute running mean: after k minutes only k/A of the new wind
@@ -270,6 +272,8 @@ class StationDetector:
         s1 = math.hypot(ur, vr) if ur == ur else NAN
         d0 = _dir_from(u0, v0) if s0 == s0 and s0 >= st.calm_ms else NAN
         d1 = _dir_from(ur, vr) if s1 == s1 and s1 >= st.calm_ms else NAN
+        se = math.hypot(ue, ve) if ue == ue else NAN
+        de = _dir_from(ue, ve) if se == se and se >= st.calm_ms else NAN
         onshore = (math.degrees(math.atan2(self._sin_o, self._cos_o)) + 360.0) % 360.0
         # spread of the recent wind: circular std of the per-sample directions (Mardia's sqrt(-2 ln R))
         cx = cy = 0.0
@@ -318,6 +322,7 @@ class StationDetector:
             # minutes between the temperature's, the dewpoint's and the onshore wind's own change times
             change_times_min=tuple(float((t[i] - t_o) / 60.0) for i in sp.channel_split[:3]),
             sample_min=dt / 60.0,
+            early_dir=de, early_offset_deg=_angle(de, onshore) if de == de else 180.0,
         )
 
     # ------------------------------------------------------------------ state

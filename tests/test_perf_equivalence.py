@@ -19,6 +19,7 @@ from frontwatch.calc.wind import angle_diff_deg, circular_mean_deg, yamartino_si
 from frontwatch.config import parse_network
 from frontwatch.detect.station import NCOL, StationDetector, _cadence_s
 from frontwatch.network.race import (
+    PATTERN_MIN,
     PATTERN_MIN_POINTS,
     STEADY_SPREAD_DEG,
     CourseMonitor,
@@ -135,6 +136,8 @@ def test_monitor_minute_by_minute_equals_its_windows_and_the_plain_pattern() -> 
             assert repr(rep.windows) == repr(want_windows)
         if int(now // 60.0) % 3 == 0:
             assert repr(mon.last_pattern) == repr(_plain_pattern(list(mon.minutes)))
+        # the minutes it holds are the last PATTERN_MIN ticks', in order (also across the restore)
+        assert [t for t, _ in mon.minutes] == [now - 60.0 * k for k in range(min(m + 1, PATTERN_MIN) - 1, -1, -1)]
         if m == 200:
             snap = mon.snapshot()
             mon = CourseMonitor("s", 90.0, 80.0, 60.0)

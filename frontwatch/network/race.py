@@ -374,10 +374,9 @@ class CourseMonitor:
         # One bucket per data minute: [minute, sum sin, sum cos, n dirs, sum u, sum v, n vectors,
         # sum speed, n speeds]; windows add up the last k buckets (trigonometry once per record).
         self.buckets: deque[list[float]] = deque(maxlen=max(WINDOWS_MIN) + 2)
-        self.minutes: deque[tuple[float, float]] = deque(maxlen=PATTERN_MIN)
-        # The same minutes flat for the pattern kernel, each written twice (at its slot and
-        # PATTERN_MIN slots on), so the last PATTERN_MIN are always one contiguous slice: the
-        # kernel's input without rebuilding an array from the deque every analysis.
+        # The last PATTERN_MIN minutes' (time, direction), flat for the pattern kernel, each written
+        # twice (at its slot and PATTERN_MIN slots on), so that they are always one contiguous slice:
+        # the kernel's input without building an array every analysis (`minutes` reads them back).
         self._ring = np.empty(4 * PATTERN_MIN)
         self._ring_n = 0  # minutes written to the ring so far
         self.pattern_kind = "unknown"  # the reported (debounced) pattern
@@ -414,15 +413,19 @@ class CourseMonitor:
             b[3] += 1
 
     def _remember_minute(self, t: float, d: float) -> None:
-        self.minutes.append((t, d))
         i = 2 * (self._ring_n % PATTERN_MIN)
         r = self._ring
         r[i] = r[i + 2 * PATTERN_MIN] = t
         r[i + 1] = r[i + 1 + 2 * PATTERN_MIN] = d
         self._ring_n += 1
 
+    @property
+    def minutes(self) -> list[tuple[float, float]]:
+        """The last PATTERN_MIN data minutes' (time, vector-mean direction), oldest first."""
+        return [(t, d) for t, d in self._minute_array().reshape(-1, 2).tolist()]
+
     def _minute_array(self) -> np.ndarray:
-        """self.minutes flat, (t0, dir0, t1, dir1, ...), as a view of the ring."""
+        """The minutes flat, (t0, dir0, t1, dir1, ...), as a view of the ring."""
         n = self._ring_n
         if n <= PATTERN_MIN:
             return self._ring[:2 * n]
@@ -537,7 +540,6 @@ class CourseMonitor:
 
     def restore(self, s: dict[str, Any]) -> None:
         self.buckets = deque(([float(x) for x in b] for b in s["buckets"]), maxlen=self.buckets.maxlen)
-        self.minutes = deque(maxlen=PATTERN_MIN)
         self._ring_n = 0
         for a, b in s["minutes"]:
             self._remember_minute(_f(a), _f(b))

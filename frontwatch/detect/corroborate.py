@@ -27,6 +27,7 @@ from typing import Any
 
 from ..calc.density import BREEZE_FRONT_SPEEDS_MS
 from ..calc.geo import local_xy_m
+from ..calc.wind import angle_diff_deg
 from ..config import NetworkConfig
 from ..events import PassageEvent
 from .classify import edge_turn
@@ -46,8 +47,8 @@ def is_weak(ev: PassageEvent, onshore_from_deg: float, halfwidth_deg: float, coa
     if ev.wind_dir_after_deg is None or ev.speed_after_ms is None:
         return True
     if ev.wind_dir_before_deg is not None:
-        before = abs((ev.wind_dir_before_deg - onshore_from_deg + 180.0) % 360.0 - 180.0)
-        after = abs((ev.wind_dir_after_deg - onshore_from_deg + 180.0) % 360.0 - 180.0)
+        before = abs(angle_diff_deg(ev.wind_dir_before_deg, onshore_from_deg))
+        after = abs(angle_diff_deg(ev.wind_dir_after_deg, onshore_from_deg))
         if before <= halfwidth_deg and not (coastal and edge_turn(before, after, halfwidth_deg)):
             return True
     onshore = ev.speed_after_ms * math.cos(math.radians(ev.wind_dir_after_deg - onshore_from_deg))
@@ -70,7 +71,7 @@ class Corroborator:
             here = ex * xy[s.id][0] + ey * xy[s.id][1]
             # only stations on the same stretch of shore (facing the same way) can be 'nearer the coast'
             seaward = [(o.id, ex * xy[o.id][0] + ey * xy[o.id][1] - here) for o in sts if o.id != s.id and
-                       abs((o.onshore_from_deg - s.onshore_from_deg + 180.0) % 360.0 - 180.0) <= SAME_SHORE_DEG]
+                       abs(angle_diff_deg(o.onshore_from_deg, s.onshore_from_deg)) <= SAME_SHORE_DEG]
             self.seaward[s.id] = [(k, d) for k, d in seaward if d > COAST_MARGIN_KM * 1000.0]
             self.coastal[s.id] = not self.seaward[s.id]
         self.last_seen: dict[str, float] = {}  # station -> onset of its last breeze-like call

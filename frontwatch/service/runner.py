@@ -737,9 +737,8 @@ class Service:
 
         Publishes of a batch are in flight together (the client sends them in order); each is
         marked sent once the broker acknowledged it."""
-        outbox = self._outbox
-        if outbox is None or outbox.client is not client:  # (not the connection's: only in tests)
-            outbox = BatchPublisher(client)
+        outbox = self._outbox  # made with the connection, before any session can flush
+        assert outbox is not None and outbox.client is client
         while True:
             pending = await self._store_call(self.store.unpublished)
             if not pending:

@@ -54,10 +54,13 @@ def describe(out: dict[str, Any], config: NetworkConfig) -> str | None:
         t = datetime.fromisoformat(iso.replace("Z", "+00:00")).astimezone(tz)
         return t.strftime("%d %b %H:%M")
 
+    def clock(iso: str | None) -> str:  # the time of day alone
+        return hm(iso)[-5:]
+
     kind = out.get("type")
     if kind is None:
         parts = [f"{hm(out['onset'])}  {out['station']:<8} {out['kind']:<13}",
-                 f"found at {hm(out['detected_at'])[-5:]}"]
+                 f"found at {clock(out['detected_at'])}"]
         if out.get("wind_dir_before_deg") is not None and out.get("wind_dir_after_deg") is not None:
             parts.append(f"wind {out['wind_dir_before_deg']:.0f}->{out['wind_dir_after_deg']:.0f} deg")
         if out.get("temp_change_c") is not None:
@@ -70,7 +73,7 @@ def describe(out: dict[str, Any], config: NetworkConfig) -> str | None:
         head = f"FORECAST  {hm(out.get('issued_at'))}  site {out.get('site')}: "
         status = out.get("status")
         if status == "arrived":
-            return head + f"front arrived {hm(out.get('eta'))[-5:]}"
+            return head + f"front arrived {clock(out.get('eta'))}"
         if status != "expected" or not out.get("eta"):
             why = {"stalled": "the front has stalled", "overdue": "the front is overdue",
                    "not_on_path": "not on the front's path", "expired": "the front is no longer seen",
@@ -80,8 +83,8 @@ def describe(out: dict[str, Any], config: NetworkConfig) -> str | None:
         # One or two stations give only a physical estimate of the speed: say how rough the time is.
         src = f"fitted to {n} stations" if out.get("basis") == "fit" else \
             f"from {n} station{'s' if n != 1 else ''}: rough"
-        return head + (f"front expected {hm(out.get('eta'))[-5:]} (between {hm(out.get('eta_earliest'))[-5:]}"
-                       f" and {hm(out.get('eta_latest'))[-5:]}; {src})")
+        return head + (f"front expected {clock(out.get('eta'))} (between {clock(out.get('eta_earliest'))}"
+                       f" and {clock(out.get('eta_latest'))}; {src})")
     if kind == "alert":
         return f"ALERT     {hm(out.get('issued_at'))}  site {out.get('site')}: {out.get('headline') or out.get('state')}"
     return None

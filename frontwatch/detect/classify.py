@@ -232,17 +232,16 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # >= 2 m/s of onshore flow at a speed that has not slackened (a slackening offshore wind keeps its
     # bearing) is that, but it too is a weak call that the network must confirm (corroborate.py). Not
     # for a running-mean vane: just behind the front its reading is a blend of the old and new wind.
-    halted_offshore = averaging <= 1 and came_onshore and not calm_after and sig.before_offset_deg > 90.0 and \
-        sig.before_offset_deg - sig.after_offset_deg >= 60.0 and sig.after_offset_deg <= 90.0 and \
-        sig.z_onshore >= 4.0 and _nz(sig.onshore_after) - _nz(sig.onshore_before) >= 2.0 and \
-        sig.speed_after >= 1.5 and settled
+    # (both this and the light turn below: a clear turn, beyond the noise, out of the offshore half)
+    offshore_turn = came_onshore and not calm_after and sig.before_offset_deg > 90.0 and \
+        sig.before_offset_deg - sig.after_offset_deg >= 60.0 and sig.z_onshore >= 4.0
+    halted_offshore = averaging <= 1 and offshore_turn and sig.after_offset_deg <= 90.0 and \
+        _nz(sig.onshore_after) - _nz(sig.onshore_before) >= 2.0 and sig.speed_after >= 1.5 and settled
     # A light breeze behind a weak front: the wind turns out of the offshore half into the sector but
     # carries under 1 m/s of onshore flow (0.5 at least), with clearly marine air. A weak call too:
     # under 1 m/s of onshore flow marks it so for the network (corroborate.is_weak).
-    light_turn = came_onshore and not calm_after and sig.before_offset_deg > 90.0 and \
-        sig.before_offset_deg - sig.after_offset_deg >= 60.0 and sig.after_offset_deg <= halfwidth and \
-        0.5 <= _nz(sig.onshore_after) < 1.0 and sig.z_onshore >= 4.0 and sig_t and sig_d and \
-        marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
+    light_turn = offshore_turn and sig.after_offset_deg <= halfwidth and 0.5 <= _nz(sig.onshore_after) < 1.0 and \
+        sig_t and sig_d and marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
     wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn
     # A call on less than a clear turn and clearly marine air is weak: corroborate.py recognises it
     # by the same marks in the event and asks the network. Its evidence counts half, so that a clear

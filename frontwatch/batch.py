@@ -301,7 +301,7 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     """Corroboration and the site watch over the events in stream order (Engine.feed's tail)."""
     watch = eng.watch
     if watch is None:
-        return [(g, eng.network_event(e)) for g, e in raw]
+        return [(g, x) for g, e in raw if (x := eng.network_event(e)) is not None]
     out: list[tuple[int, Output]] = []
     upos = np.flatnonzero(used)
     ut = times[upos]
@@ -356,7 +356,8 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
         synced = ci + 1
         if ev is not None:
             ev = eng.network_event(ev)
-            out.append((g, ev))
+            if ev is not None:
+                out.append((g, ev))
         o = Observation(st_c[k], t, wd_c[k], ws_c[k], gu_c[k], tc_c[k], td_c[k], p_c[k], rain_c[k])
         produced = watch.observe(o, ev)
         next_tick = watch._next_tick

@@ -66,7 +66,7 @@ class Engine:
         self.config = config
         self.stats = EngineStats()
         prototype = StationDetector(config.detector, tz=config.tz, southern=config.southern,
-                                    alone=len(config.stations) == 1)
+                                    alone=len(config.stations) == 1, emit_repeats=True)
         self.detectors: dict[str, StationDetector] = {}
         self.qc: dict[str, StationQC] = {}
         for st in config.stations:
@@ -104,17 +104,21 @@ class Engine:
         if ev is None:
             return [] if watch is None else watch.observe(clean, None)
         ev = self.network_event(ev)
+        if ev is None:
+            return [] if watch is None else watch.observe(clean, None)
         out: list[Output] = [ev]
         if watch is not None:
             out.extend(watch.observe(clean, ev))
         return out
 
-    def network_event(self, ev: PassageEvent) -> PassageEvent:
+    def network_event(self, ev: PassageEvent) -> PassageEvent | None:
         """A station detector's event through the network check (corroboration), counted by kind:
-        what feed() emits (frontwatch.batch calls it in the same stream order)."""
-        ev = self.corroborate.check(ev)
-        self.stats.events[ev.kind] += 1
-        return ev
+        what feed() emits (frontwatch.batch calls it in the same stream order); None when the
+        network drops it (a repeat of a confirmed breeze front)."""
+        got = self.corroborate.check(ev)
+        if got is not None:
+            self.stats.events[got.kind] += 1
+        return got
 
     def feed_many(self, records: Sequence[Observation]) -> list[Output]:
         """feed() over `records` in their order, in one call: the same outputs in the same order,

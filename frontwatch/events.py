@@ -34,6 +34,10 @@ class PassageEvent:
     gust_after_ms: float | None = None
     temp_after_c: float | None = None
     note: str | None = None  # why the kind is what it is, when that is not obvious
+    # Internal, not in the contract: a breeze front the station's detector found within repeat_min
+    # of its previous one, as strong. Whether that is the same regime going on (dropped) or a new
+    # passage after a call the network did not confirm is the network's to say (corroborate.py).
+    repeat: bool = False
 
     def __post_init__(self) -> None:
         if self.kind not in KINDS:

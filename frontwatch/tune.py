@@ -343,7 +343,7 @@ def finish_events(store: ObsStore, config: NetworkConfig, raw: list[PassageEvent
     step = getattr(eng, "corroborate", None)
     if step is None:
         return ordered
-    return [step.check(e) for e in ordered]
+    return [x for e in ordered if (x := step.check(e)) is not None]
 
 
 # --------------------------------------------------------------------------------------------

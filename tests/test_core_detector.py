@@ -315,6 +315,58 @@ def test_marine_air_under_a_wind_already_onshore_is_weak_unless_the_wind_turned_
     assert d.kind == "breeze_front" and not d.note.startswith("weak")
 
 
+def test_saturated_marine_air_counts_as_moist_under_a_wind_that_turned_in():
+    """Marine air that arrives saturated cannot show its moisture as a dewpoint rise beyond the
+    noise (the dewpoint is capped by the falling temperature; common practice): its vanishing
+    depression stands for it. Cooling under a wind swung in from the sector's edge is then a front;
+    the same cooling in air far from saturation with no moisture rise stays no front (a cloud
+    shadow cools without moistening, DOMAIN.md section 3)."""
+    s = config().detector
+    fog = _onshore_sig(60.0, 10.0, depression_after=0.2, z_dewpoint=0.5, dewpoint_change=0.1, temp_change=-2.5,
+                       z_temp=-40.0)
+    d = classify(fog, s, 70.0, can_wait=False, weak_ok=False)
+    assert d.kind == "breeze_front" and not d.note.startswith("weak"), d.note
+    shadow = replace(fog, depression_after=8.0)
+    assert classify(shadow, s, 70.0, can_wait=False).kind != "breeze_front"
+
+
+def _strong(station, onset):
+    return replace(_front(station, onset, weak=False), wind_dir_before_deg=90.0)
+
+
+def test_repeat_after_a_call_the_network_refused_is_a_passage_of_its_own():
+    """Inland station B calls a look-alike at 11:00 that the network does not confirm (no front
+    nearer the water yet); the day's real front reaches the shore at 12:40 and B at 13:10. B's
+    detector marks its second call a repeat (within repeat_min of the first, no stronger): the
+    network checks it as a passage of its own, since the call before did not stand."""
+    cor = Corroborator(_two_stations())
+    t0 = 1767268800.0  # 12:00 UTC
+    assert cor.check(_strong("B", t0 - 3600)).kind == "wind_shift"  # nothing seen nearer the coast
+    assert cor.check(_strong("A", t0 + 2400)).kind == "breeze_front"
+    again = cor.check(replace(_strong("B", t0 + 4200), repeat=True))
+    assert again is not None and again.kind == "breeze_front" and not again.repeat
+    # A repeat after a call that stood is the same regime going on: dropped.
+    assert cor.check(replace(_strong("B", t0 + 6000), repeat=True)) is None
+    assert cor.check(replace(_strong("A", t0 + 3 * 3600), repeat=True)) is None
+    # ... and once repeat_min has passed since the call that stood, it is a passage again.
+    late = t0 + 2400 + config().detector.repeat_min * 60.0 + 60.0
+    assert cor.check(replace(_strong("A", late), repeat=True)) is not None
+    # The state survives a snapshot.
+    other = Corroborator(_two_stations())
+    other.restore(cor.snapshot())
+    assert other.last_front == cor.last_front and other.last_seen == cor.last_seen
+
+
+def test_bare_detector_drops_repeats_and_the_engine_lets_the_network_decide():
+    from frontwatch.detect.station import StationDetector
+
+    cfg = config()
+    eng = Engine(cfg)
+    assert all(d.emit_repeats for d in eng.detectors.values())
+    assert not StationDetector(cfg.detector).emit_repeats
+    assert StationDetector(cfg.detector, emit_repeats=True).clone(cfg.stations[0]).emit_repeats
+
+
 def test_event_reports_the_wind_from_before_a_turn_that_led_the_air():
     """A station whose wind turns onshore 10 minutes before the marine air arrives: the event's
     wind before is the offshore wind, not the already-turned one (frontwatch.detect.station)."""
@@ -341,3 +393,20 @@ def test_event_reports_the_wind_from_before_a_turn_that_led_the_air():
     assert len(bf) == 1, [(e.kind, e.note) for e in evs]
     assert abs((bf[0].wind_dir_before_deg - 20.0 + 180) % 360 - 180) < 30, bf[0]
     assert abs((bf[0].wind_dir_after_deg - 180.0 + 180) % 360 - 180) < 30
+
+
+def test_front_after_a_refused_look_alike_is_found_end_to_end():
+    """Regression, on a generated scenario (preset 'ordinary', seed 501): an inland station's
+    look-alike call at 14:25 that the network refused (reported as a wind shift) no longer hides the
+    day's front there two hours later (labelled 16:37:32)."""
+    from frontwatch.replay import decode_frame, run_decoded
+    from frontwatch.sim import generate, preset
+    from frontwatch.timeutil import parse_time
+
+    sc = generate(preset("ordinary", seed=501, days=6))
+    cfg = parse_network(sc.network)
+    res = run_decoded(decode_frame(sc.observations, cfg, "ordinary-501"), cfg)
+    t = parse_time("2027-07-13T16:37:32Z")
+    day = [e for e in res.events if e.station == "SM05" and abs(e.onset - t) < 4 * 3600]
+    assert any(e.kind == "wind_shift" and e.note and "no breeze front seen" in e.note for e in day)
+    assert any(e.kind == "breeze_front" and abs(e.onset - t) <= 300 for e in day), [e.to_dict() for e in day]

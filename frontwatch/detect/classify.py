@@ -219,13 +219,16 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     dry = rain < 0.2  # rain at the change means convection, not a breeze front (DOMAIN.md section 3)
     # Where the large-scale wind already blew from the water (a bay's far side), the front shows in
     # the air alone: then a strong, simultaneous cooling and moistening under an onshore wind will do.
-    marine_air_only = onshore_after and settled and sig_t and sig_d and marine >= 2.0 * s.breeze_min_marine_index_c
+    # (Marine air that arrives saturated shows no dewpoint rise beyond the noise, see `saturated`: its
+    # vanishing depression stands for the moisture then.)
+    moist = sig_d or (has_moist and dry_measure)
+    marine_air_only = onshore_after and settled and sig_t and moist and marine >= 2.0 * s.breeze_min_marine_index_c
     # Where the vane cannot be read (its wind is missing, or a vane that reports the very same bearing
     # minute after minute while the cups turn: stuck, Zahumensky 2004), the air must say it alone,
     # as strongly as under an already-onshore wind. Not for a running mean, which is steady anyway.
     wind_missing = sig.speed_after != sig.speed_after
     vane_frozen = averaging <= 1 and sig.spread_after < 0.5 and not calm_after  # same bearing to within 1 deg
-    air_only = (wind_missing or vane_frozen) and sig_t and sig_d and marine >= 2.0 * s.breeze_min_marine_index_c
+    air_only = (wind_missing or vane_frozen) and sig_t and moist and marine >= 2.0 * s.breeze_min_marine_index_c
     wind_turned = came_onshore and ((onshore_after and settled) or (turning_onshore and sig.spread_after <= 90.0))
     # Against an opposing offshore wind, the front first halts it: just behind the front the wind may
     # turn alongshore and carry little onshore flow yet. A clear turn out of the offshore half that adds
@@ -241,7 +244,7 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # carries under 1 m/s of onshore flow (0.5 at least), with clearly marine air. A weak call too:
     # under 1 m/s of onshore flow marks it so for the network (corroborate.is_weak).
     light_turn = offshore_turn and sig.after_offset_deg <= halfwidth and 0.5 <= _nz(sig.onshore_after) < 1.0 and \
-        sig_t and sig_d and marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
+        sig_t and moist and marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
     wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn
     # A call on less than a clear turn and clearly marine air is weak: corroborate.py recognises it
     # by the same marks in the event and asks the network. Its evidence counts half, so that a clear

@@ -16,7 +16,13 @@ classify.py) needs more. Inland: the latest front among the stations nearer the 
 shore came before it, at a time a density current could have taken to come this far (implied speed
 between MIN_FRONT_MS and MAX_FRONT_MS). At the shore: any other station's front within `hours`.
 An unconfirmed weak call marks nothing as seen; in a single-station network it is never confirmed
-(strong calls there are unaffected). Pure and deterministic; state is one time per station.
+(strong calls there are unaffected).
+
+A station's detector marks a breeze front found within repeat_min of its previous one (and not much
+stronger) as a `repeat`. When the station's last breeze front that the network let stand is that
+recent, the repeat is the same regime going on (a wobble of the onshore wind) and is dropped; when
+the call before was one the network did not confirm (a look-alike inland ahead of the day's front),
+the repeat is checked as a passage of its own. Pure and deterministic; state is two times per station.
 """
 
 from __future__ import annotations
@@ -75,6 +81,8 @@ class Corroborator:
             self.seaward[s.id] = [(k, d) for k, d in seaward if d > COAST_MARGIN_KM * 1000.0]
             self.coastal[s.id] = not self.seaward[s.id]
         self.last_seen: dict[str, float] = {}  # station -> onset of its last breeze-like call
+        self.repeat_s = config.detector.repeat_min * 60.0
+        self.last_front: dict[str, float] = {}  # station -> onset of its last breeze front let stand
 
     def _travelled(self, ev: PassageEvent) -> bool:
         """The front was last seen nearer the water (the latest call among this station's seaward
@@ -87,8 +95,23 @@ class Corroborator:
         dt = ev.onset - t
         return dt <= self.hours * 3600.0 and MIN_FRONT_MS <= dist / dt <= MAX_FRONT_MS
 
-    def check(self, ev: PassageEvent) -> PassageEvent:
-        if ev.kind != "breeze_front" or self.hours <= 0:
+    def check(self, ev: PassageEvent) -> PassageEvent | None:
+        """The event as the network reports it (a breeze front may become a wind shift), or None
+        for a repeat of a breeze front that stood."""
+        if ev.kind != "breeze_front":
+            return ev
+        if ev.repeat:
+            last = self.last_front.get(ev.station)
+            if last is not None and ev.onset - last < self.repeat_s:
+                return None
+            ev = replace(ev, repeat=False)
+        got = self._check(ev)
+        if got.kind == "breeze_front":
+            self.last_front[ev.station] = ev.onset
+        return got
+
+    def _check(self, ev: PassageEvent) -> PassageEvent:
+        if self.hours <= 0:
             return ev
         # another station's breeze-like call within the hours before this one
         recent = any(0 <= ev.onset - t <= self.hours * 3600.0 for k, t in self.last_seen.items() if k != ev.station)
@@ -107,10 +130,12 @@ class Corroborator:
         return _demoted(ev, "breeze-like change inland with no breeze front seen nearer the coast")
 
     def snapshot(self) -> dict[str, Any]:
-        return {"last_seen": dict(self.last_seen)}
+        return {"last_seen": dict(self.last_seen), "last_front": dict(self.last_front)}
 
     def restore(self, snap: dict[str, Any]) -> None:
         self.last_seen = {k: float(v) for k, v in snap["last_seen"].items()}
+        # (a snapshot from before repeats were the network's: none let stand, as after a restart)
+        self.last_front = {k: float(v) for k, v in snap.get("last_front", {}).items()}
 
 
 def _demoted(ev: PassageEvent, note: str) -> PassageEvent:

@@ -61,9 +61,14 @@ class StationDetector:
     """Online breeze-front detector for one station (see frontwatch.detect.changepoint/classify)."""
 
     def __init__(self, settings: DetectorSettings, tz: tzinfo | None = None, southern: bool = False,
-                 station: StationConfig | None = None, alone: bool = False) -> None:
+                 station: StationConfig | None = None, alone: bool = False, emit_repeats: bool = False) -> None:
         self.settings = settings
         self.alone = alone  # the network's only station: no other can confirm a weak call
+        # A breeze front within repeat_min of the last one (and not much stronger) is dropped here as
+        # the same regime going on; with emit_repeats it is emitted marked `repeat` instead, for the
+        # network to decide (the Engine's detectors: the last call may have been one the network
+        # did not confirm, and then this is the passage; corroborate.py).
+        self.emit_repeats = emit_repeats
         self.tz = tz
         self.southern = southern
         self.station = station
@@ -92,7 +97,7 @@ class StationDetector:
 
     def clone(self, station: StationConfig) -> StationDetector:
         """A fresh detector for `station` with this prototype's settings and clock."""
-        return StationDetector(self.settings, self.tz, self.southern, station, self.alone)
+        return StationDetector(self.settings, self.tz, self.southern, station, self.alone, self.emit_repeats)
 
     # ------------------------------------------------------------------ the ring
     @property
@@ -213,11 +218,13 @@ class StationDetector:
         quiet = 10.0 if dec.kind == "wind_shift" else float(st.refractory_min)
         self.quiet_until = t_o + quiet * 60.0
         repeat = st.repeat_min if dec.kind in ("breeze_front", "land_breeze") else st.refractory_min
-        if t_o - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
-                dec.evidence <= 1.5 * self.last_evidence.get(dec.kind, 0.0):
+        again = t_o - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
+            dec.evidence <= 1.5 * self.last_evidence.get(dec.kind, 0.0)
+        if again and not (self.emit_repeats and dec.kind == "breeze_front"):
             return None  # the same regime going on (a wobble of the onshore wind), not a new passage
-        self.last_onset[dec.kind] = float(t_o)
-        self.last_evidence[dec.kind] = dec.evidence
+        if not again:
+            self.last_onset[dec.kind] = float(t_o)
+            self.last_evidence[dec.kind] = dec.evidence
         conf = dec.confidence * (1.0 - math.exp(-sp.strength / st.min_score))
         return PassageEvent(
             station=self.sid, kind=dec.kind, onset=float(t_o), detected_at=float(now),
@@ -230,6 +237,7 @@ class StationDetector:
             pressure_change_hpa=_opt(sig.pressure_change), speed_after_ms=_opt(sig.speed_after),
             gust_after_ms=_opt(sig.gust_after), temp_after_c=_opt(float(np.nanmean(arr[-3:, _TC]))
                                                                     if np.isfinite(arr[-3:, _TC]).any() else NAN),
+            repeat=again,
         )
 
     def _signature(self, arr: np.ndarray, rows: list[Any] | None, sp: Any, o: int, now: float, baseline_s: float,

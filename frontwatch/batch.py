@@ -313,6 +313,13 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     is_watched = np.zeros(len(ids), dtype=bool)
     is_watched[[k for k, sid in enumerate(ids.tolist()) if sid in watch._watched]] = True
     watched = is_watched[ucode]
+    # ... and those of stations whose passage's temperature drop the watch measures (SiteWatch.
+    # refining): already, or after a breeze front of this chunk (a superset: the loop asks the watch)
+    refine = {*watch.refining, *(e.station for _, e in raw if e.kind == "breeze_front")}
+    is_refining = np.zeros(len(ids), dtype=bool)
+    if refine:
+        is_refining[[k for k, sid in enumerate(ids.tolist()) if sid in refine]] = True
+    refining = is_refining[ucode]
     minute = np.floor_divide(ut, 60.0)
     new_minute = np.ones(len(ut), dtype=bool)
     if len(ut) > 1:
@@ -321,7 +328,7 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     at_event = np.zeros(len(used), dtype=bool)
     at_event[list(ev_at)] = True
     ev_mask = at_event[upos]
-    calls = np.flatnonzero(watched | new_minute | ev_mask)
+    calls = np.flatnonzero(watched | refining | new_minute | ev_mask)
     # The records the watch is given, as Engine.feed hands them over: QC'd (the rain is not QC'd).
     # An Observation is made only for those that reach observe(); the others (a watched
     # station's records within a minute) go to watch_wind as values.
@@ -334,6 +341,9 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     gu_c, tc_c, td_c, p_c = (clean[k][cg].tolist() for k in _FIELDS[2:-1])
     rain_c = cols["rain_mm"][cg].tolist()
     watched_call = watched[calls].tolist()
+    refining_call = refining[calls].tolist()
+    refine_temp = watch.refine_temp
+    drop_of = watch.refining
     ut_l = ut.tolist()
     ust_l = ust.tolist()
     last_seen = watch.last_seen
@@ -350,6 +360,8 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
                 st = st_c[k]
                 last_seen[st] = t  # (as observe(): the order keys enter last_seen is kept)
                 watch_wind(st, t, wd_c[k], ws_c[k], mons_of[st])
+            if refining_call[k] and st_c[k] in drop_of:
+                refine_temp(st_c[k], t, tc_c[k])
             continue
         if synced < ci:
             last_seen.update(zip(ust_l[synced:ci], ut_l[synced:ci], strict=True))

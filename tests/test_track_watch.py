@@ -209,3 +209,51 @@ def test_front_stopping_just_short_of_a_site_without_station_is_never_called_arr
     assert fcs[-1]["status"] == "not_expected" and fcs[-1]["reason"] == "stalled"
     alerts = [o for o in field if o["type"] == "alert"]
     assert not alerts or alerts[-1]["state"] == "cancelled"
+
+
+def test_drop_behind_the_front_renews_a_one_station_forecast() -> None:
+    """The detector decides minutes after the onset, while the temperature is still falling: its
+    event says -0.2 degC. The station's records 10-20 min after the onset show the full -2 degC, so
+    the passage takes that drop and the prior's density-current speed (prior.py, U ~ sqrt(drop))
+    rises: a new forecast with the speed the prior gives for -2 degC, and an earlier ETA. A snapshot
+    taken inside the drop window restores to the same outputs."""
+    from frontwatch.network.prior import PassageFacts, density_prior
+    from frontwatch.network.watch import DROP_WINDOW_S
+    from frontwatch.obs import Observation
+
+    cfg = _network()
+    onset = T0
+    ev = PassageEvent("S00", "breeze_front", onset, onset + 240, 0.9, 250.0, 90.0, 2.0, -0.2, 2.0, 0.3,
+                      speed_after_ms=4.0, gust_after_ms=6.0, temp_after_c=25.8)
+
+    def stream():
+        t = onset - 1800
+        while t <= onset + 3600:
+            for st in cfg.stations:
+                temp = 24.0 if st.id == "S00" and t >= onset + 480 else 26.0
+                d = 90.0 if st.id == "S00" and t >= onset else 250.0
+                yield Observation(st.id, t, d, 3.0, 4.5, temp, 15.0, 1012.0, 0.0), (ev if (st.id, t) == ("S00", ev.detected_at) else None)
+            t += 60.0
+
+    def run(cut: float | None = None) -> list[dict[str, Any]]:
+        w = SiteWatch(cfg)
+        out: list[dict[str, Any]] = []
+        for obs, e in stream():
+            if cut is not None and obs.time == cut and obs.station == "S00":
+                snap = json.loads(json.dumps(w.snapshot()))
+                w = SiteWatch(cfg)
+                w.restore(snap)
+            out.extend(o.to_dict() for o in w.observe(obs, e))
+        return out
+
+    out = run()
+    fcs = [o for o in out if o["type"] == "forecast" and o["site"] == "green" and o["status"] == "expected"]
+    first = [o for o in fcs if parse_time(o["issued_at"]) < onset + DROP_WINDOW_S[1]]
+    later = [o for o in fcs if parse_time(o["issued_at"]) >= onset + DROP_WINDOW_S[1]]
+    assert first and later
+    facts = PassageFacts(270.0, -2.0, 25.8, 250.0, 2.0)  # inland normal 270 deg; 2 m/s from 250 before
+    assert later[0]["front_speed_ms"] == pytest.approx(density_prior([facts]).speed_ms, abs=0.01)
+    assert later[0]["front_speed_ms"] > first[-1]["front_speed_ms"]
+    assert parse_time(later[0]["eta"]) < parse_time(first[-1]["eta"])
+    assert later[0]["expected"]["temp_change_c"] == pytest.approx(-2.0, abs=0.05)
+    assert run(cut=onset + 900) == out

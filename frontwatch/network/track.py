@@ -221,6 +221,11 @@ class FrontTracker:
         v = dq / dt
         return 0.99 if JOIN_SPEED_MS[0] <= v <= JOIN_SPEED_MS[1] else math.inf
 
+    def refit(self, fr: Front) -> None:
+        """Refit a front whose arrivals were revised in place (the prior's facts), with its deadlines."""
+        fr.refit()
+        self._set_deadlines(fr)
+
     def _set_deadlines(self, fr: Front) -> None:
         f = fr.fit
         fr.deadlines = []

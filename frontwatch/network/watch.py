@@ -38,6 +38,15 @@ SITE_STATION_MAX_M = 5000.0  # the nearest station stands for a site only this c
 ARRIVAL_MATCH_S = 30 * 60.0
 PENDING_CROSS_M = 20_000.0  # stations this far across the site's track count as checkpoints before it  # a passage at the site's station this long before a front's first onset still counts
 DIR_EMA_ALPHA = 0.1  # weight of a new record in the site station's running wind (about 10 records)
+# A station detector decides a few minutes after the onset, while the marine air is still arriving
+# and the temperature still falling (the transition takes some 5 to 15 minutes at a station, with
+# the sensors' lag; common practice, from memory), so the drop it reports is partial, and with it
+# the density-current speed of the prior (prior.py: U grows as the root of the drop). The
+# temperature of the station's records DROP_WINDOW_S after the onset gives the drop behind the
+# front; where it shows more cooling, the passage takes it and its front's forecasts are renewed.
+DROP_WINDOW_S = (10 * 60.0, 20 * 60.0)
+DROP_MIN_RECORDS = 3
+DROP_MIN_DEEPER_C = 0.1  # a refinement that changes the drop by less is not worth a new forecast
 
 Output = SiteForecast | AlertMessage | CourseReport
 
@@ -107,6 +116,9 @@ class SiteWatch:
         self.passages: dict[str, float] = {}  # site station -> onset of its latest breeze-front passage
         self.minute = -1
         self._next_tick = -math.inf  # data time of the next minute boundary
+        # station -> [front key, onset, temperature before, sum and count of temperatures in the
+        # drop window] while its latest passage's drop is being measured (see DROP_WINDOW_S)
+        self.refining: dict[str, list[Any]] = {}
 
     # ---- the hot path -------------------------------------------------------------------------
     def observe(self, obs: Observation, event: PassageEvent | None) -> list[Output]:
@@ -115,6 +127,8 @@ class SiteWatch:
         self.last_seen[st] = t
         if st in self._watched:
             self._watch_obs(obs, self._watched[st])
+        if st in self.refining:
+            self.refine_temp(st, t, obs.temp_c)
         if event is None and t < self._next_tick:
             return []
         out: list[Output] = []
@@ -144,6 +158,38 @@ class SiteWatch:
         for mon in mons:
             mon.add(t, d, s)
 
+    def refine_temp(self, station: str, t: float, temp: float) -> None:
+        """A record of a station whose passage's drop is being measured (observe() calls it, and
+        frontwatch.batch for such a station's records within a minute)."""
+        r = self.refining[station]
+        if temp == temp and r[1] + DROP_WINDOW_S[0] <= t < r[1] + DROP_WINDOW_S[1]:
+            r[3] += temp
+            r[4] += 1
+
+    def _refined(self, now: float) -> list[Output]:
+        """Passages whose drop window has ended: take the drop behind the front where it is deeper
+        than the detector's (the expected conditions at sites use it too), refit the front and, where
+        its motion comes from the prior, renew its sites' forecasts."""
+        out: list[Output] = []
+        for st in [k for k, r in self.refining.items() if now >= r[1] + DROP_WINDOW_S[1]]:
+            key, _onset, before, total, n = self.refining.pop(st)
+            fr = self.tracker.get(key)
+            a = None if fr is None else fr.arrivals.get(st)
+            if fr is None or a is None or n < DROP_MIN_RECORDS or a.temp_change_c is None:
+                continue
+            drop = total / n - before
+            if drop > a.temp_change_c - DROP_MIN_DEEPER_C:
+                continue
+            fr.arrivals[st] = replace(a, temp_change_c=drop)
+            prior_based = fr.fit is not None and fr.fit.used_prior
+            self.tracker.refit(fr)
+            if not prior_based:  # the drop is the prior's: a fitted front's forecasts stay as they are
+                continue
+            for site in self.sites:
+                if site.front is None or site.front == fr.key:
+                    out.extend(self._evaluate(site, now, fr, emit_forecast=True))
+        return out
+
     # ---- passages -----------------------------------------------------------------------------
     def _on_passage(self, ev: PassageEvent, now: float) -> list[Output]:
         if ev.station in self._site_stations:
@@ -151,6 +197,9 @@ class SiteWatch:
         fr = self.tracker.add(ev)
         if fr is None or fr.fit is None:
             return []
+        if ev.temp_change_c is not None and ev.temp_after_c is not None:
+            # the temperature before the front, as the detector measured the drop from it
+            self.refining[ev.station] = [fr.key, ev.onset, ev.temp_after_c - ev.temp_change_c, 0.0, 0]
         out: list[Output] = []
         for site in self.sites:
             out.extend(self._evaluate(site, now, fr, emit_forecast=True))
@@ -286,7 +335,7 @@ class SiteWatch:
 
     # ---- once a data minute -------------------------------------------------------------------
     def _tick(self, now: float) -> list[Output]:
-        out: list[Output] = []
+        out: list[Output] = self._refined(now) if self.refining else []
         tr = self.tracker
         if tr.fronts:
             stalled = {fr.key for fr in tr.check_stalls(now, self.last_seen)}
@@ -331,6 +380,7 @@ class SiteWatch:
             "minute": self.minute,
             "last_seen": dict(self.last_seen),
             "passages": dict(self.passages),
+            "refining": {k: list(v) for k, v in self.refining.items()},
             "ema": {k: list(v) for k, v in self._ema.items()},
             "fronts": self.tracker.snapshot(),
             "sites": {s.cfg.id: {"front": s.front, "last_fc": None if s.last_fc is None else s.last_fc.to_state(),
@@ -345,6 +395,8 @@ class SiteWatch:
         self._next_tick = (self.minute + 1) * 60.0 if self.minute >= 0 else -math.inf
         self.last_seen = {k: float(v) for k, v in snap["last_seen"].items()}
         self.passages = {k: float(v) for k, v in snap["passages"].items()}
+        self.refining = {k: [str(v[0]), float(v[1]), float(v[2]), float(v[3]), int(v[4])]
+                         for k, v in snap.get("refining", {}).items()}
         for k, v in snap["ema"].items():
             if k in self._ema:
                 self._ema[k] = [float(x) for x in v]

@@ -187,7 +187,7 @@ class SiteWatch:
                 continue
             for site in self.sites:
                 if site.front is None or site.front == fr.key:
-                    out.extend(self._evaluate(site, now, fr, emit_forecast=True))
+                    out.extend(self._evaluate(site, now, fr, emit_forecast=False, emit_if_eta_moved=True))
         return out
 
     # ---- passages -----------------------------------------------------------------------------
@@ -281,8 +281,11 @@ class SiteWatch:
             site.arrived = (fr.key, arrived)
         return fc
 
-    def _evaluate(self, site: _Site, now: float, changed: Front | None, emit_forecast: bool) -> list[Output]:
-        """Re-forecast one site. `changed` is a front that just changed (it may take the site over)."""
+    def _evaluate(self, site: _Site, now: float, changed: Front | None, emit_forecast: bool,
+                  emit_if_eta_moved: bool = False) -> list[Output]:
+        """Re-forecast one site. `changed` is a front that just changed (it may take the site over).
+        A forecast is written when it says something new (emit_forecast), when its status or front
+        changed, or (emit_if_eta_moved) when its ETA moved by a minute or more."""
         cur = self.tracker.get(site.front) if site.front is not None else None
         fr = cur
         fc = self._forecast(site, cur, now) if cur is not None else None
@@ -301,8 +304,10 @@ class SiteWatch:
             return []
         out: list[Output] = []
         last = site.last_fc
+        moved = emit_if_eta_moved and last is not None and (last.eta is None) == (fc.eta is None) and \
+            last.eta is not None and fc.eta is not None and abs(fc.eta - last.eta) >= 60.0
         if (emit_forecast and not fc.same_as(last)) or last is None or last.status != fc.status \
-                or last.front != fc.front:
+                or last.front != fc.front or moved:
             out.append(fc)
             site.last_fc = fc
         msg = site.alerts.step(now, fc, self._current_dir(self._site_wind[site.cfg.id]),

@@ -410,3 +410,51 @@ def test_front_after_a_refused_look_alike_is_found_end_to_end():
     day = [e for e in res.events if e.station == "SM05" and abs(e.onset - t) < 4 * 3600]
     assert any(e.kind == "wind_shift" and e.note and "no breeze front seen" in e.note for e in day)
     assert any(e.kind == "breeze_front" and abs(e.onset - t) <= 300 for e in day), [e.to_dict() for e in day]
+
+
+def _turn_sig(**kw):
+    """A daytime clear turn of a sustained wind from offshore (150 deg off) into the onshore sector
+    (10 deg off), 3 -> 5 m/s, with no change of the air yet."""
+    base = dict(dir_before=150.0, dir_after=10.0, speed_before=3.0, speed_after=5.0, spread_after=15.0,
+                turn_deg=140.0, onshore_before=-2.6, onshore_after=4.9, before_offset_deg=150.0,
+                after_offset_deg=10.0, change_offset_deg=5.0, change_speed=7.5, z_onshore=12.0, z_temp=0.2,
+                z_dewpoint=0.1, temp_change=0.0, dewpoint_change=0.0, temp_rate=0.0, minutes_after=8.0,
+                early_dir=150.0, early_offset_deg=150.0)
+    base.update(kw)
+    return _sig(**base)
+
+
+def test_onshore_turn_waits_for_the_air_before_it_is_called_a_wind_shift():
+    """At a front the wind often turns first and the marine air follows minutes later (common
+    practice): a daytime turn into the onshore sector with the air unchanged is not yet called a
+    wind shift while it may wait (whose quiet time would hold off the breeze front); once it cannot,
+    it is one. A turn out of the sector is a wind shift after the usual minutes."""
+    from frontwatch.detect.classify import WIND_SHIFT_MIN
+
+    s = config().detector
+    d = classify(_turn_sig(), s, 70.0, can_wait=True)
+    assert d.kind is None and d.wait
+    assert classify(_turn_sig(), s, 70.0, can_wait=False).kind == "wind_shift"
+    # the same turn at night: no breeze front to wait for
+    night = _turn_sig(local_hour=23.0)
+    assert classify(night, s, 70.0, can_wait=True).kind == "wind_shift"
+    # the air arriving later under the turned wind: a breeze front
+    air = _turn_sig(minutes_after=12.0, z_temp=-9.0, z_dewpoint=7.0, temp_change=-1.2, dewpoint_change=1.0,
+                    change_times_min=(8.0, 9.0, 0.0))
+    assert classify(air, s, 70.0, can_wait=True).kind == "breeze_front"
+    assert s.max_wait_min > WIND_SHIFT_MIN
+
+
+def test_a_squall_strength_wind_is_no_breeze_front():
+    """A breeze blows at a few m/s (from memory): a wind swinging onshore at 14 m/s with the air
+    changing is a squall's outflow (a rain-cooled one in the tropics: the shared real record's
+    2017-06-29 at 11:51 local, 29 kt), even where no gust is measured and the latest wind has eased."""
+    s = config().detector
+    front = _turn_sig(minutes_after=10.0, z_temp=-12.0, z_dewpoint=8.0, temp_change=-1.5, dewpoint_change=1.2,
+                      change_times_min=(0.0, 1.0, 0.0))
+    assert classify(front, s, 70.0, can_wait=False).kind == "breeze_front"
+    squall = replace(front, peak_speed_after=14.0)
+    d = classify(squall, s, 70.0, can_wait=False)
+    assert d.kind != "breeze_front"
+    assert classify(replace(front, peak_speed_after=s.breeze_max_speed_ms - 1.0), s, 70.0,
+                    can_wait=False).kind == "breeze_front"

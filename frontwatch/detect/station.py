@@ -306,6 +306,8 @@ class StationDetector:
         pj = max(p_after) - float(pre[4]) if p_after and pre[4] == pre[4] else NAN
         gusts = [r[_G] for r in rows[o - off:] if r[_G] == r[_G]]
         gust = max(gusts) if gusts else NAN
+        winds = [math.hypot(r[_U], r[_V]) for r in rows[o - off:] if r[_U] == r[_U]]
+        peak = max(winds) if winds else NAN
         # rain from half an hour before the onset: a rain-cooled outflow starts with its rain
         rains = [r[_R] for r in rows[rain_lo - off:] if r[_R] == r[_R]]
         rain = sum(rains) if rains else NAN
@@ -330,7 +332,7 @@ class StationDetector:
             # minutes between the temperature's, the dewpoint's and the onshore wind's own change times
             change_times_min=tuple(float((t[i] - t_o) / 60.0) for i in sp.channel_split[:3]),
             sample_min=dt / 60.0,
-            early_dir=de, early_offset_deg=_angle(de, onshore) if de == de else 180.0,
+            early_dir=de, early_offset_deg=_angle(de, onshore) if de == de else 180.0, peak_speed_after=peak,
         )
 
     # ------------------------------------------------------------------ state

@@ -110,9 +110,10 @@ class DetectorSettings(_Strict):
     # onshore shifts needed to call a breeze front; a weak change waits until it has persisted.
     breeze_min_evidence: float = Field(10.0, ge=0)
     # Mean wind (m/s) behind a breeze front no stronger than this: the breeze blows at a few m/s,
-    # rarely near 10 (from memory); a stronger wind swinging onshore with the air changing is a
-    # squall's outflow, the more so where no gust is measured
-    breeze_max_speed_ms: float = Field(10.0, gt=0)
+    # at its strongest coasts about 10 (from memory); a wind swinging onshore at more, with the air
+    # changing, is a squall's outflow, the more so where no gust is measured. As strong as a gust
+    # front's gust (gust_front_gust_ms) by default
+    breeze_max_speed_ms: float = Field(12.0, gt=0)
     # Minutes within which T, Td and the onshore wind must each change for one front (common practice)
     coherence_min: float = Field(6.0, ge=1, le=30)
     # An inland breeze front needs another station's within this many hours (0 = off); see

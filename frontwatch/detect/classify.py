@@ -84,7 +84,7 @@ class Signature:
     sample_min: float = 1.0  # the station's reporting interval, minutes (change times come in these steps)
     early_dir: float = float("nan")  # deg from, of the wind 30 to 15 minutes before the onset (NaN: calm)
     early_offset_deg: float = 180.0  # |early_dir - onshore bearing| (180 when calm or unknown)
-    peak_speed_after: float = float("nan")  # strongest wind (m/s) of a record since the onset
+    peak_speed_after: float = float("nan")  # strongest 3-record mean wind (m/s) since the onset
 
 
 @dataclass(frozen=True, slots=True)

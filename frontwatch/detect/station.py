@@ -306,8 +306,10 @@ class StationDetector:
         pj = max(p_after) - float(pre[4]) if p_after and pre[4] == pre[4] else NAN
         gusts = [r[_G] for r in rows[o - off:] if r[_G] == r[_G]]
         gust = max(gusts) if gusts else NAN
+        # the strongest wind since the onset, as a 3-record mean (one gusty minute is no squall)
         winds = [math.hypot(r[_U], r[_V]) for r in rows[o - off:] if r[_U] == r[_U]]
-        peak = max(winds) if winds else NAN
+        peak = max((winds[i] + winds[i + 1] + winds[i + 2]) / 3.0 for i in range(len(winds) - 2)) \
+            if len(winds) >= 3 else NAN
         # rain from half an hour before the onset: a rain-cooled outflow starts with its rain
         rains = [r[_R] for r in rows[rain_lo - off:] if r[_R] == r[_R]]
         rain = sum(rains) if rains else NAN

@@ -257,3 +257,25 @@ def test_drop_behind_the_front_renews_a_one_station_forecast() -> None:
     assert parse_time(later[0]["eta"]) < parse_time(first[-1]["eta"])
     assert later[0]["expected"]["temp_change_c"] == pytest.approx(-2.0, abs=0.05)
     assert run(cut=onset + 900) == out
+
+
+def test_a_nearby_station_stands_in_but_its_passage_is_not_the_sites() -> None:
+    """A site 2.4 km inland of its nearest station (within 5 km, not configured as its own): at
+    2.5 m/s the front reaches the site 16 min after the station. The station's passage is not taken
+    as the site's arrival; the site is 'arrived' at the track's time for it once a station further
+    along has reported, and its alerts say the arrival is estimated."""
+    cfg = _network([{"id": "quay", "lat": LAT0, "lon": LON0 - 0.061 * 0.4}])
+    site = next(s for s in cfg.sites if s.id == "quay")
+    assert site.station is None
+    speed, heading = 2.5, 270.0
+    evs = front_events(cfg, t0=T0, speed_ms=speed, heading_deg=heading, lat0=LAT0, lon0=LON0)
+    out = _run(cfg, evs)
+    truth = _true_arrival(cfg, "quay", speed, heading)
+    s00 = next(e for e in evs if e.station == "S00")
+    assert truth - s00.onset == pytest.approx(0.4 * 6000.0 / speed, rel=0.05)  # about 16 min later
+    arrived = [o for o in out if o["type"] == "forecast" and o["site"] == "quay" and o["status"] == "arrived"]
+    assert arrived
+    assert abs(parse_time(arrived[0]["eta"]) - truth) <= 3 * 60
+    assert parse_time(arrived[0]["issued_at"]) >= truth
+    alerts = [o for o in out if o["type"] == "alert" and o["site"] == "quay"]
+    assert alerts and all(any("stands in" in w for w in a["data_warnings"]) for a in alerts)

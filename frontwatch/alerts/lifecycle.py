@@ -277,8 +277,10 @@ class SiteAlerts:
         msg_type = "Alert" if new_episode else ("Cancel" if wanted == CANCELLED else "Update")
         warnings = []
         station = self.station
-        if station is None:
-            warnings.append("no station at the site: its arrival time is estimated from the front's track")
+        if station is None or self.site.station is None:
+            # (the nearest station within 5 km stands in for arrivals: frontwatch/network/watch.py)
+            stand_in = "" if station is None else f" (the nearest, {station}, stands in)"
+            warnings.append(f"no station at the site{stand_in}: its arrival time is estimated from the front's track")
         elif last_seen is None or now - last_seen > STALE_S:
             since = "ever" if last_seen is None else iso_z(last_seen)
             warnings.append(f"no data from the site's station {station} since {since}: "

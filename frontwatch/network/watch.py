@@ -54,7 +54,8 @@ Output = SiteForecast | AlertMessage | CourseReport
 class _Site:
     """Per-site state: its place, station, the front it follows, its last forecast and its alerts.
 
-    `station` confirms arrivals: the configured one, or the nearest within SITE_STATION_MAX_M. A site
+    `station` confirms arrivals: the configured one, or the nearest within SITE_STATION_MAX_M (which
+    only stands in: the front reaches the site the fitted travel time from it later or earlier). A site
     with none is 'arrived' (estimated) once a station at least as far along the front has reported.
     """
 
@@ -67,6 +68,7 @@ class _Site:
         self.front: str | None = None
         self.last_fc: SiteForecast | None = None
         self.arrived: tuple[str, float] | None = None  # (front, time) once the front has arrived here
+        self.own_station = cfg.station is not None  # configured: its passage is the site's
         self.next_eval = -math.inf  # data time before which the clock alone cannot change its outputs
 
 
@@ -208,9 +210,11 @@ class SiteWatch:
     def _arrived_at(self, site: _Site, fr: Front, now: float) -> float | None:
         if site.arrived is not None and site.arrived[0] == fr.key:
             return site.arrived[1]  # once arrived, the time stays (later refits do not move it)
-        if site.station is None:
-            # No station of its own: estimated from the track once a station at least as far along
-            # has reported. Only when no live station lies further along either (nothing could
+        if site.station is None or not site.own_station:
+            # No station of its own (a nearest one only stands in: a station a few km away sees the
+            # front up to an hour before or after the site, at 1-2 m/s): estimated from the track
+            # once a station at least as far along has reported (the stand-in too, if it is).
+            # Only when no live station lies further along either (nothing could
             # confirm it) is the ETA passing enough, with the front still moving and every station
             # short of the site reached. (A front that slows and stops just short of the site shows
             # as silence at the stations beyond it: the site stays 'imminent', then 'not expected'.)
@@ -259,7 +263,7 @@ class SiteWatch:
         ux, uy = (f.sx / s, f.sy / s) if s > 0 else (0.0, 0.0)
         n = 0
         for _, sid in fr.deadlines:
-            if sid == site.station or now - self.last_seen.get(sid, -math.inf) > STATION_UP_S:
+            if (sid == site.station and site.own_station) or now - self.last_seen.get(sid, -math.inf) > STATION_UP_S:
                 continue
             x, y, _ = self.tracker.positions[sid]
             if f.progress(x, y) >= p_site:

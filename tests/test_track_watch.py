@@ -279,3 +279,16 @@ def test_a_nearby_station_stands_in_but_its_passage_is_not_the_sites() -> None:
     assert parse_time(arrived[0]["issued_at"]) >= truth
     alerts = [o for o in out if o["type"] == "alert" and o["site"] == "quay"]
     assert alerts and all(any("stands in" in w for w in a["data_warnings"]) for a in alerts)
+
+
+def test_forecast_interval_ends_by_the_days_end() -> None:
+    """A front seen at one station in the afternoon gets a wide interval; it ends by the local day's end
+    (day_end_h, 20:00 local here), after which a breeze front fades (common practice)."""
+    cfg = _network()
+    evs = front_events(cfg, t0=T0 + 4.5 * 3600.0, speed_ms=0.8, heading_deg=270.0, lat0=LAT0, lon0=LON0)[:1]
+    out = _run(cfg, evs, hours=9.0)  # the passage at 15:30 local
+    day_end = T0 + (cfg.detector.day_end_h - 11.0) * 3600.0  # T0 is 11:00 local
+    fcs = [o for o in out if o["type"] == "forecast" and o["status"] == "expected"]
+    assert fcs
+    assert all(parse_time(o["eta_latest"]) <= max(day_end, parse_time(o["eta"])) for o in fcs)
+    assert any(parse_time(o["eta_latest"]) == day_end for o in fcs)  # (the interval was cut there)

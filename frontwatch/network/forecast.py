@@ -211,6 +211,8 @@ def forecast_for_site(
     acc = eta_lin - eta  # the speed-up assumed is itself uncertain: count it as one sd
     half = max(Z90 * math.sqrt(sd * sd + (MODEL_REL_ERR * span) ** 2 + acc * acc), MIN_HALF_WIDTH_S)
     # The interval starts no earlier than now, and never after the ETA (an ETA already past, not yet
-    # confirmed at the site, keeps [eta, eta + half]).
-    return SiteForecast(status=EXPECTED, eta=eta, eta_earliest=max(eta - half, min(now, eta)), eta_latest=eta + half,
+    # confirmed at the site, keeps [eta, eta + half]). It ends by the local day's end: a front not
+    # there by then fades first (as above).
+    latest = eta + half if day_end is None else max(min(eta + half, day_end), eta)
+    return SiteForecast(status=EXPECTED, eta=eta, eta_earliest=max(eta - half, min(now, eta)), eta_latest=latest,
                         **common)

@@ -292,3 +292,26 @@ def test_forecast_interval_ends_by_the_days_end() -> None:
     assert fcs
     assert all(parse_time(o["eta_latest"]) <= max(day_end, parse_time(o["eta"])) for o in fcs)
     assert any(parse_time(o["eta_latest"]) == day_end for o in fcs)  # (the interval was cut there)
+
+
+def test_a_station_far_across_the_track_confirms_only_beyond_the_heading_doubt() -> None:
+    """Hand-worked: the front moves due west (slowness (-1/2, 0) s/m); a station 28 km north of the
+    site and 2 km further west is ahead of it along the motion, but with the heading known only to
+    20 deg it may be behind: 28 km x tan 20 deg = 10.2 km of doubt. Known to 1 deg (0.5 km), it is
+    ahead."""
+    import math
+    from types import SimpleNamespace
+
+    from frontwatch.network.watch import SiteWatch
+
+    def fit(hd_sd: float) -> Any:
+        sx, sy = -0.5, 0.0
+        return SimpleNamespace(sx=sx, sy=sy, speed_heading_sd=lambda: (0.1, hd_sd),
+                               progress=lambda x, y: (sx * x + sy * y) / math.hypot(sx, sy))
+
+    site = SimpleNamespace(x=0.0, y=0.0)
+    for hd, ok in ((20.0, False), (1.0, True)):
+        f = fit(hd)
+        assert SiteWatch._beyond(f, -2000.0, 28000.0, site, f.progress(0.0, 0.0)) is ok  # type: ignore[arg-type]
+    f = fit(20.0)
+    assert SiteWatch._beyond(f, -11000.0, 28000.0, site, 0.0)  # 11 km ahead: beyond the 10.2 km doubt

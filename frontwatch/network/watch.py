@@ -37,6 +37,7 @@ from .track import FRONT_TTL_S, LINK_M, STATION_UP_S, Front, FrontTracker
 SITE_STATION_MAX_M = 5000.0  # the nearest station stands for a site only this close
 ARRIVAL_MATCH_S = 30 * 60.0
 PENDING_CROSS_M = 20_000.0  # stations this far across the site's track count as checkpoints before it  # a passage at the site's station this long before a front's first onset still counts
+MAX_HEADING_DOUBT_DEG = 45.0  # the heading sd a confirming station's margin allows for, at most (see _beyond)
 DIR_EMA_ALPHA = 0.1  # weight of a new record in the site station's running wind (about 10 records)
 # A station detector decides a few minutes after the onset, while the marine air is still arriving
 # and the temperature still falling (the transition takes some 5 to 15 minutes at a station, with
@@ -225,7 +226,7 @@ class SiteWatch:
             eta = f.predict(site.x, site.y)[0]
             if eta < fr.first_onset - ARRIVAL_MATCH_S:
                 return None  # behind where the front was first seen: not on its path (forecast says so)
-            if any(f.progress(a.x, a.y) >= p for a in fr.arrivals.values()):
+            if any(self._beyond(f, a.x, a.y, site, p) for a in fr.arrivals.values()):
                 return eta
             if fr.stalled_at is None and now >= eta and self._pending(site, fr, now) == 0 \
                     and not self._confirmable(site, fr, now):
@@ -238,6 +239,20 @@ class SiteWatch:
         if seen is not None and fr.first_onset - ARRIVAL_MATCH_S <= seen <= fr.last_change + FRONT_TTL_S:
             return seen
         return None
+
+    @staticmethod
+    def _beyond(f: Any, x: float, y: float, site: _Site, p_site: float) -> bool:
+        """True when (x, y) is at least as far along the front's motion as the site, even with the
+        front's heading off by its sd: a station far across the track from the site may be ahead of
+        it or behind it by minutes to an hour as the heading turns (a two-station front's heading
+        is good to some 20 deg; across 28 km that is 10 km of progress)."""
+        s = math.hypot(f.sx, f.sy)
+        if s == 0:
+            return False
+        hd_sd = f.speed_heading_sd()[1]
+        tol = math.tan(math.radians(min(hd_sd if hd_sd == hd_sd else MAX_HEADING_DOUBT_DEG, MAX_HEADING_DOUBT_DEG)))
+        cross = abs((x - site.x) * f.sy - (y - site.y) * f.sx) / s
+        return f.progress(x, y) >= p_site + cross * tol
 
     def _confirmable(self, site: _Site, fr: Front, now: float) -> bool:
         """True when a live station the front has not reached lies at least as far along its motion

@@ -55,9 +55,10 @@ Output = SiteForecast | AlertMessage | CourseReport
 class _Site:
     """Per-site state: its place, station, the front it follows, its last forecast and its alerts.
 
-    `station` confirms arrivals: the configured one, or the nearest within SITE_STATION_MAX_M (which
-    only stands in: the front reaches the site the fitted travel time from it later or earlier). A site
-    with none is 'arrived' (estimated) once a station at least as far along the front has reported.
+    `station`: the configured one, whose passage is the site's arrival, or else the nearest within
+    SITE_STATION_MAX_M, which only stands in (its wind, its data's freshness). A site without a
+    station of its own is 'arrived' (estimated) once a station at least as far along the front has
+    reported.
     """
 
     def __init__(self, cfg: SiteConfig, x: float, y: float, station: str | None, alerts: SiteAlerts) -> None:
@@ -186,7 +187,7 @@ class SiteWatch:
             fr.arrivals[st] = replace(a, temp_change_c=drop)
             prior_based = fr.fit is not None and fr.fit.used_prior
             self.tracker.refit(fr)
-            if not prior_based:  # the drop is the prior's: a fitted front's forecasts stay as they are
+            if not prior_based:  # only the prior uses the drop: a fitted front's forecasts do not change
                 continue
             for site in self.sites:
                 if site.front is None or site.front == fr.key:
@@ -214,10 +215,9 @@ class SiteWatch:
         if site.station is None or not site.own_station:
             # No station of its own (a nearest one only stands in: a station a few km away sees the
             # front up to an hour before or after the site, at 1-2 m/s): estimated from the track
-            # once a station at least as far along has reported (the stand-in too, if it is).
-            # Only when no live station lies further along either (nothing could
-            # confirm it) is the ETA passing enough, with the front still moving and every station
-            # short of the site reached. (A front that slows and stops just short of the site shows
+            # once a station at least as far along has reported (the stand-in too, if it is). Only
+            # when no live station lies further along either (nothing could confirm it) is the ETA
+            # passing enough, with the front still moving and every station short of the site reached. (A front that slows and stops just short of the site shows
             # as silence at the stations beyond it: the site stays 'imminent', then 'not expected'.)
             f = fr.fit
             if f is None:

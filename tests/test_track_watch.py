@@ -312,6 +312,9 @@ def test_a_station_far_across_the_track_confirms_only_beyond_the_heading_doubt()
     site = SimpleNamespace(x=0.0, y=0.0)
     for hd, ok in ((20.0, False), (1.0, True)):
         f = fit(hd)
-        assert SiteWatch._beyond(f, -2000.0, 28000.0, site, f.progress(0.0, 0.0)) is ok  # type: ignore[arg-type]
+        tol = SiteWatch._heading_doubt(f)
+        assert tol == pytest.approx(math.tan(math.radians(hd)))
+        assert SiteWatch._beyond(f, -2000.0, 28000.0, site, f.progress(0.0, 0.0), tol) is ok  # type: ignore[arg-type]
     f = fit(20.0)
-    assert SiteWatch._beyond(f, -11000.0, 28000.0, site, 0.0)  # 11 km ahead: beyond the 10.2 km doubt
+    # 11 km ahead: beyond the 10.2 km doubt
+    assert SiteWatch._beyond(f, -11000.0, 28000.0, site, 0.0, SiteWatch._heading_doubt(f))  # type: ignore[arg-type]

@@ -151,11 +151,13 @@ class FrontFit:
         if s2 == 0:
             return math.inf, 180.0
         s = math.sqrt(s2)
-        c = np.array(self.cov)[1:3, 1:3]
-        g_speed = np.array([-sx / s**3, -sy / s**3])  # d(1/|s|)/ds
-        g_head = np.array([sy / s2, -sx / s2])  # d atan2(sx, sy)/ds
-        v_speed = float(g_speed @ c @ g_speed)
-        v_head = float(g_head @ c @ g_head)
+        # g' C g over the (sx, sy) block of the covariance, written out (it runs for every site
+        # forecast; numpy on 2 x 2 arrays costs more than the arithmetic)
+        cxx, cxy, cyy = self.cov[1][1], self.cov[1][2], self.cov[2][2]
+        ax, ay = -sx / s**3, -sy / s**3  # d(1/|s|)/ds
+        bx, by = sy / s2, -sx / s2  # d atan2(sx, sy)/ds
+        v_speed = ax * ax * cxx + 2.0 * ax * ay * cxy + ay * ay * cyy
+        v_head = bx * bx * cxx + 2.0 * bx * by * cxy + by * by * cyy
         return math.sqrt(max(v_speed, 0.0)), math.degrees(math.sqrt(max(v_head, 0.0)))
 
 

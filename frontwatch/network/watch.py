@@ -226,7 +226,8 @@ class SiteWatch:
             eta = f.predict(site.x, site.y)[0]
             if eta < fr.first_onset - ARRIVAL_MATCH_S:
                 return None  # behind where the front was first seen: not on its path (forecast says so)
-            if any(self._beyond(f, a.x, a.y, site, p) for a in fr.arrivals.values()):
+            tol = self._heading_doubt(f)
+            if any(self._beyond(f, a.x, a.y, site, p, tol) for a in fr.arrivals.values()):
                 return eta
             if fr.stalled_at is None and now >= eta and self._pending(site, fr, now) == 0 \
                     and not self._confirmable(site, fr, now):
@@ -241,16 +242,20 @@ class SiteWatch:
         return None
 
     @staticmethod
-    def _beyond(f: Any, x: float, y: float, site: _Site, p_site: float) -> bool:
+    def _heading_doubt(f: Any) -> float:
+        """tan of the front's heading sd (at most MAX_HEADING_DOUBT_DEG): see _beyond."""
+        hd_sd = f.speed_heading_sd()[1]
+        return math.tan(math.radians(min(hd_sd if hd_sd == hd_sd else MAX_HEADING_DOUBT_DEG, MAX_HEADING_DOUBT_DEG)))
+
+    @staticmethod
+    def _beyond(f: Any, x: float, y: float, site: _Site, p_site: float, tol: float) -> bool:
         """True when (x, y) is at least as far along the front's motion as the site, even with the
-        front's heading off by its sd: a station far across the track from the site may be ahead of
-        it or behind it by minutes to an hour as the heading turns (a two-station front's heading
-        is good to some 20 deg; across 28 km that is 10 km of progress)."""
+        front's heading off by its sd (`tol`, its tangent): a station far across the track from the
+        site may be ahead of it or behind it by minutes to an hour as the heading turns (a
+        two-station front's heading is good to some 20 deg; across 28 km that is 10 km of progress)."""
         s = math.hypot(f.sx, f.sy)
         if s == 0:
             return False
-        hd_sd = f.speed_heading_sd()[1]
-        tol = math.tan(math.radians(min(hd_sd if hd_sd == hd_sd else MAX_HEADING_DOUBT_DEG, MAX_HEADING_DOUBT_DEG)))
         cross = abs((x - site.x) * f.sy - (y - site.y) * f.sx) / s
         return f.progress(x, y) >= p_site + cross * tol
 

@@ -445,21 +445,29 @@ class CourseMonitor:
         m_now = now // 60.0
         ss = cs = nd = su = sv = nv = sp = ns = 0.0
         out: list[tuple[float, ...]] = []
-        it = reversed(self.buckets)
-        b = next(it, None)
-        for k in spans:
-            while b is not None and b[0] >= m_now - k:
-                if b[0] < m_now:
-                    ss += b[1]
-                    cs += b[2]
-                    nd += b[3]
-                    su += b[4]
-                    sv += b[5]
-                    nv += b[6]
-                    sp += b[7]
-                    ns += b[8]
-                b = next(it, None)
+        n_spans = len(spans)
+        i = 0
+        lo = m_now - spans[0]
+        for b in reversed(self.buckets):  # (one loop, no next() per bucket: it runs every minute)
+            m = b[0]
+            while m < lo:  # older than the current span: that span is complete
+                out.append((ss, cs, nd, su, sv, nv, sp, ns))
+                i += 1
+                if i == n_spans:
+                    return out
+                lo = m_now - spans[i]
+            if m < m_now:
+                ss += b[1]
+                cs += b[2]
+                nd += b[3]
+                su += b[4]
+                sv += b[5]
+                nv += b[6]
+                sp += b[7]
+                ns += b[8]
+        while i < n_spans:
             out.append((ss, cs, nd, su, sv, nv, sp, ns))
+            i += 1
         return out
 
     def tick(self, now: float) -> CourseReport | None:

@@ -90,6 +90,12 @@ def describe(out: dict[str, Any], config: NetworkConfig) -> str | None:
     return None
 
 
+# Local hour from which the demo's first day is paced (`speed`); before it the records go flat out.
+# Breeze fronts form late in the morning: from 10:00 at 600 x the demo's first passage (12:08) shows
+# some 15 s after the start. Anything before it is still processed, only faster.
+PACED_FROM_H = 10.0
+
+
 def _fast_until(messages: list[tuple[float, str, bytes, int]], config: NetworkConfig, hour: float) -> float:
     """Data time of the first `hour` o'clock (local) in the data: the quiet night before it is sent
     flat out, so passages appear within a minute of starting."""
@@ -147,7 +153,7 @@ async def run_demo(*, data: Path | None = None, broker: str | None = None, speed
             f"from {net.parent}, replayed at {speed:g}x real time")
         say("decision support only: official warnings and the people in charge of a venue come first")
         msgs = plan_messages(observations, settings.prefix)
-        fast = _fast_until(msgs, config, 8.0) if skip_night else msgs[0][0] if msgs else 0.0
+        fast = _fast_until(msgs, config, PACED_FROM_H) if skip_night else msgs[0][0] if msgs else 0.0
         night = [m for m in msgs if m[0] < fast]
         day = [m for m in msgs if m[0] >= fast]
         pub_settings = settings.but(client_id="frontwatch-demo-feed")

@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import warnings
 from bisect import bisect_right
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Collection, Mapping, Sequence
 from typing import Any
 
 import numpy as np
@@ -310,16 +310,15 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     # Records the watch must see: its own stations', those whose data minute passes the largest
     # one before them (a superset of the watch's minute ticks: the loop checks its clock too), the
     # events'.
-    is_watched = np.zeros(len(ids), dtype=bool)
-    is_watched[[k for k, sid in enumerate(ids.tolist()) if sid in watch._watched]] = True
-    watched = is_watched[ucode]
+    id_list = ids.tolist()
+
+    def of_stations(keys: Collection[str]) -> np.ndarray:  # used records of these stations
+        return np.array([sid in keys for sid in id_list], dtype=bool)[ucode]
+
+    watched = of_stations(watch._watched)
     # ... and those of stations whose passage's temperature drop the watch measures (SiteWatch.
     # refining): already, or after a breeze front of this chunk (a superset: the loop asks the watch)
-    refine = {*watch.refining, *(e.station for _, e in raw if e.kind == "breeze_front")}
-    is_refining = np.zeros(len(ids), dtype=bool)
-    if refine:
-        is_refining[[k for k, sid in enumerate(ids.tolist()) if sid in refine]] = True
-    refining = is_refining[ucode]
+    refining = of_stations({*watch.refining, *(e.station for _, e in raw if e.kind == "breeze_front")})
     minute = np.floor_divide(ut, 60.0)
     new_minute = np.ones(len(ut), dtype=bool)
     if len(ut) > 1:

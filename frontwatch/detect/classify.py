@@ -147,10 +147,10 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
             or (rain >= 0.2 and dT <= -1.5):  # a rain-cooled outflow, even without gust or pressure data
         conf = _logistic(-dT / s.gust_front_temp_drop_c * 2 + dp + gust / s.gust_front_gust_ms - 1.5)
         return Decision("gust_front", min(0.99, max(0.5, conf)), False)
-    # Still plunging, raining or jumping, or blowing harder than a breeze does: it may yet turn out a
-    # gust front (checked before calling one).
+    # Still plunging, raining or jumping: it may yet turn out a gust front (checked before calling one).
+    convective = rate < -0.5 or rain > 0.2 or dp >= 0.6 * s.gust_front_pressure_jump_hpa or gusty
+    # Blowing harder than a breeze does (breeze_max_speed_ms): a squall's outflow, no breeze front.
     squall = max(_nz(sig.peak_speed_after), _nz(sig.speed_after)) > s.breeze_max_speed_ms
-    convective = rate < -0.5 or rain > 0.2 or dp >= 0.6 * s.gust_front_pressure_jump_hpa or gusty or squall
 
     turned = (sig.turn_deg == sig.turn_deg and sig.turn_deg >= s.min_shift_deg) or (calm_before and not calm_after)
     daytime = s.day_start_h <= sig.local_hour < s.day_end_h

@@ -212,13 +212,14 @@ class SiteWatch:
     def _arrived_at(self, site: _Site, fr: Front, now: float) -> float | None:
         if site.arrived is not None and site.arrived[0] == fr.key:
             return site.arrived[1]  # once arrived, the time stays (later refits do not move it)
-        if site.station is None or not site.own_station:
+        if site.station is None or not site.own_station:  # (the first test narrows the type)
             # No station of its own (a nearest one only stands in: a station a few km away sees the
             # front up to an hour before or after the site, at 1-2 m/s): estimated from the track
             # once a station at least as far along has reported (the stand-in too, if it is). Only
             # when no live station lies further along either (nothing could confirm it) is the ETA
-            # passing enough, with the front still moving and every station short of the site reached. (A front that slows and stops just short of the site shows
-            # as silence at the stations beyond it: the site stays 'imminent', then 'not expected'.)
+            # passing enough, with the front still moving and every station short of the site
+            # reached. (A front that slows and stops just short of the site shows as silence at the
+            # stations beyond it: the site stays 'imminent', then 'not expected'.)
             f = fr.fit
             if f is None:
                 return None
@@ -328,8 +329,8 @@ class SiteWatch:
             return []
         out: list[Output] = []
         last = site.last_fc
-        moved = emit_if_eta_moved and last is not None and (last.eta is None) == (fc.eta is None) and \
-            last.eta is not None and fc.eta is not None and abs(fc.eta - last.eta) >= 60.0
+        moved = emit_if_eta_moved and last is not None and last.eta is not None and fc.eta is not None and \
+            abs(fc.eta - last.eta) >= 60.0
         if (emit_forecast and not fc.same_as(last)) or last is None or last.status != fc.status \
                 or last.front != fc.front or moved:
             out.append(fc)

@@ -92,12 +92,12 @@ def describe(out: dict[str, Any], config: NetworkConfig) -> str | None:
 
 # Local hour from which the demo's first day is paced (`speed`); before it the records go flat out.
 # Breeze fronts form late in the morning: from 10:00 at 600 x the demo's first passage (12:08) shows
-# some 15 s after the start. Anything before it is still processed, only faster.
+# some 20 s after the start. Anything before it is still processed, only faster.
 PACED_FROM_H = 10.0
 
 
 def _fast_until(messages: list[tuple[float, str, bytes, int]], config: NetworkConfig, hour: float) -> float:
-    """Data time of the first `hour` o'clock (local) in the data: the quiet night before it is sent
+    """Data time of the first `hour` o'clock (local) in the data: the quiet hours before it are sent
     flat out, so passages appear within a minute of starting."""
     if not messages:
         return 0.0

@@ -11,7 +11,7 @@ time only; state is bounded by the numbers of stations, sites and open fronts.
 from __future__ import annotations
 
 import math
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from typing import Any
 
 from ..alerts.lifecycle import (
@@ -50,6 +50,24 @@ DROP_MIN_RECORDS = 3
 DROP_MIN_DEEPER_C = 0.1  # a refinement that changes the drop by less is not worth a new forecast
 
 Output = SiteForecast | AlertMessage | CourseReport
+
+
+@dataclass(slots=True)
+class _Drop:
+    """A passage whose temperature drop is being remeasured (see DROP_WINDOW_S)."""
+
+    front: str  # the key of the front it joined
+    onset: float
+    before: float  # the temperature before the front, as the detector measured the drop from it
+    total: float = 0.0  # sum and count of the temperatures in the window so far
+    n: int = 0
+
+    def to_state(self) -> list[Any]:
+        return [self.front, self.onset, self.before, self.total, self.n]
+
+    @classmethod
+    def from_state(cls, v: list[Any]) -> _Drop:
+        return cls(str(v[0]), float(v[1]), float(v[2]), float(v[3]), int(v[4]))
 
 
 class _Site:
@@ -120,9 +138,7 @@ class SiteWatch:
         self.passages: dict[str, float] = {}  # site station -> onset of its latest breeze-front passage
         self.minute = -1
         self._next_tick = -math.inf  # data time of the next minute boundary
-        # station -> [front key, onset, temperature before, sum and count of temperatures in the
-        # drop window] while its latest passage's drop is being measured (see DROP_WINDOW_S)
-        self.refining: dict[str, list[Any]] = {}
+        self.refining: dict[str, _Drop] = {}  # station -> its latest passage while its drop is remeasured
 
     # ---- the hot path -------------------------------------------------------------------------
     def observe(self, obs: Observation, event: PassageEvent | None) -> list[Output]:
@@ -166,22 +182,22 @@ class SiteWatch:
         """A record of a station whose passage's drop is being measured (observe() calls it, and
         frontwatch.batch for such a station's records within a minute)."""
         r = self.refining[station]
-        if temp == temp and r[1] + DROP_WINDOW_S[0] <= t < r[1] + DROP_WINDOW_S[1]:
-            r[3] += temp
-            r[4] += 1
+        if temp == temp and r.onset + DROP_WINDOW_S[0] <= t < r.onset + DROP_WINDOW_S[1]:
+            r.total += temp
+            r.n += 1
 
     def _refined(self, now: float) -> list[Output]:
         """Passages whose drop window has ended: take the drop behind the front where it is deeper
         than the detector's (the expected conditions at sites use it too), refit the front and, where
         its motion comes from the prior, renew its sites' forecasts."""
         out: list[Output] = []
-        for st in [k for k, r in self.refining.items() if now >= r[1] + DROP_WINDOW_S[1]]:
-            key, _onset, before, total, n = self.refining.pop(st)
-            fr = self.tracker.get(key)
+        for st in [k for k, r in self.refining.items() if now >= r.onset + DROP_WINDOW_S[1]]:
+            r = self.refining.pop(st)
+            fr = self.tracker.get(r.front)
             a = None if fr is None else fr.arrivals.get(st)
-            if fr is None or a is None or n < DROP_MIN_RECORDS or a.temp_change_c is None:
+            if fr is None or a is None or r.n < DROP_MIN_RECORDS or a.temp_change_c is None:
                 continue
-            drop = total / n - before
+            drop = r.total / r.n - r.before
             if drop > a.temp_change_c - DROP_MIN_DEEPER_C:
                 continue
             fr.arrivals[st] = replace(a, temp_change_c=drop)
@@ -202,8 +218,7 @@ class SiteWatch:
         if fr is None or fr.fit is None:
             return []
         if ev.temp_change_c is not None and ev.temp_after_c is not None:
-            # the temperature before the front, as the detector measured the drop from it
-            self.refining[ev.station] = [fr.key, ev.onset, ev.temp_after_c - ev.temp_change_c, 0.0, 0]
+            self.refining[ev.station] = _Drop(fr.key, ev.onset, ev.temp_after_c - ev.temp_change_c)
         out: list[Output] = []
         for site in self.sites:
             out.extend(self._evaluate(site, now, fr, emit_forecast=True))
@@ -410,7 +425,7 @@ class SiteWatch:
             "minute": self.minute,
             "last_seen": dict(self.last_seen),
             "passages": dict(self.passages),
-            "refining": {k: list(v) for k, v in self.refining.items()},
+            "refining": {k: v.to_state() for k, v in self.refining.items()},
             "ema": {k: list(v) for k, v in self._ema.items()},
             "fronts": self.tracker.snapshot(),
             "sites": {s.cfg.id: {"front": s.front, "last_fc": None if s.last_fc is None else s.last_fc.to_state(),
@@ -425,8 +440,7 @@ class SiteWatch:
         self._next_tick = (self.minute + 1) * 60.0 if self.minute >= 0 else -math.inf
         self.last_seen = {k: float(v) for k, v in snap["last_seen"].items()}
         self.passages = {k: float(v) for k, v in snap["passages"].items()}
-        self.refining = {k: [str(v[0]), float(v[1]), float(v[2]), float(v[3]), int(v[4])]
-                         for k, v in snap.get("refining", {}).items()}
+        self.refining = {k: _Drop.from_state(v) for k, v in snap.get("refining", {}).items()}
         for k, v in snap["ema"].items():
             if k in self._ema:
                 self._ema[k] = [float(x) for x in v]

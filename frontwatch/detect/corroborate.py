@@ -22,7 +22,10 @@ A station's detector marks a breeze front found within repeat_min of its previou
 stronger) as a `repeat`. When the station's last breeze front that the network let stand is that
 recent, the repeat is the same regime going on (a wobble of the onshore wind) and is dropped; when
 the call before was one the network did not confirm (a look-alike inland ahead of the day's front),
-the repeat is checked as a passage of its own. Pure and deterministic; state is two times per station.
+the repeat is checked as a passage of its own. A clear inland call with no front seen stands too
+when a station nearer the water made a weak call the network could not confirm, before it and at a
+density current's pace (the first station to see a front may show it only weakly). Pure and
+deterministic; state is three times per station.
 """
 
 from __future__ import annotations
@@ -83,12 +86,15 @@ class Corroborator:
         self.last_seen: dict[str, float] = {}  # station -> onset of its last breeze-like call
         self.repeat_s = config.detector.repeat_min * 60.0
         self.last_front: dict[str, float] = {}  # station -> onset of its last breeze front let stand
+        self.last_weak: dict[str, float] = {}  # station -> onset of its last weak call not confirmed
 
-    def _travelled(self, ev: PassageEvent) -> bool:
+    def _travelled(self, ev: PassageEvent, seen_at: dict[str, float] | None = None) -> bool:
         """The front was last seen nearer the water (the latest call among this station's seaward
-        neighbours) before this onset, at a distance a density current could have covered since."""
+        neighbours, in `seen_at`: by default the calls that marked the front seen) before this
+        onset, at a distance a density current could have covered since."""
+        at = self.last_seen if seen_at is None else seen_at
         seen = [(t, k, dist) for k, dist in self.seaward.get(ev.station, [])
-                if (t := self.last_seen.get(k)) is not None and t < ev.onset]
+                if (t := at.get(k)) is not None and t < ev.onset]
         if not seen:
             return False
         t, _, dist = max(seen)
@@ -123,19 +129,25 @@ class Corroborator:
             if recent if coastal else self._travelled(ev):
                 self.last_seen[ev.station] = ev.onset
                 return ev
+            self.last_weak[ev.station] = ev.onset
             return _demoted(ev, "weak breeze-like change with no front seen nearer the coast in time to reach it")
         self.last_seen[ev.station] = ev.onset
-        if coastal or recent:
+        # A clear inland call after a weak one nearer the water that the network could not confirm
+        # then (the first station to see the front showed it weakly: a stuck vane, a light turn),
+        # at a time a density current could have taken to come this far: the two agree on a front.
+        if coastal or recent or self._travelled(ev, self.last_weak):
             return ev
         return _demoted(ev, "breeze-like change inland with no breeze front seen nearer the coast")
 
     def snapshot(self) -> dict[str, Any]:
-        return {"last_seen": dict(self.last_seen), "last_front": dict(self.last_front)}
+        return {"last_seen": dict(self.last_seen), "last_front": dict(self.last_front),
+                "last_weak": dict(self.last_weak)}
 
     def restore(self, snap: dict[str, Any]) -> None:
         self.last_seen = {k: float(v) for k, v in snap["last_seen"].items()}
         # (a snapshot from before repeats were the network's: none let stand, as after a restart)
         self.last_front = {k: float(v) for k, v in snap.get("last_front", {}).items()}
+        self.last_weak = {k: float(v) for k, v in snap.get("last_weak", {}).items()}
 
 
 def _demoted(ev: PassageEvent, note: str) -> PassageEvent:

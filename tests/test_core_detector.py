@@ -191,8 +191,28 @@ def test_unconfirmed_weak_call_marks_nothing_seen():
     cor = Corroborator(_two_stations())
     t0 = 1767268800.0
     assert cor.check(_front("A", t0, weak=True)).kind == "wind_shift"  # nobody else saw one
-    # A's demoted weak call does not vouch for B's strong one a little later.
-    assert cor.check(_front("B", t0 + 1800, weak=False)).kind == "wind_shift"
+    # A's demoted weak call does not vouch for B's strong one 5 minutes later (14 km in 5 min is
+    # 47 m/s, no density current), nor for B's weak one at any time.
+    assert cor.check(_front("B", t0 + 300, weak=False)).kind == "wind_shift"
+    cor = Corroborator(_two_stations())
+    cor.check(_front("A", t0, weak=True))
+    assert cor.check(_front("B", t0 + 1800, weak=True)).kind == "wind_shift"
+
+
+@pytest.mark.parametrize(("minutes", "kept"), [
+    (14000 / 7.0 / 60, True),  # at DOMAIN.md's density-current check value, sqrt(g'h) = 7.00 m/s
+    (14000 / 1.4 / 60, True),  # at the mean lake-breeze front speed, 1.4 m/s (Keeler & Kristovich 2012)
+    (10.0, False),  # 23 m/s: no density current moves so fast
+])
+def test_clear_inland_call_after_a_weak_one_nearer_the_water(minutes, kept):
+    # The first station to see a front may show it only weakly (a stuck vane); the clear call
+    # inland that follows at a density current's pace confirms the front (not the weak call,
+    # which has been reported as a wind shift already).
+    cor = Corroborator(_two_stations())
+    t0 = 1767268800.0
+    assert cor.check(_front("A", t0, weak=True)).kind == "wind_shift"
+    out = cor.check(_front("B", t0 + minutes * 60.0, weak=False))
+    assert (out.kind == "breeze_front") == kept, out.note
 
 
 def test_weak_channel_change_time_gets_a_wider_allowance():
@@ -458,3 +478,81 @@ def test_a_squall_strength_wind_is_no_breeze_front():
     assert d.kind != "breeze_front"
     assert classify(replace(front, peak_speed_after=s.breeze_max_speed_ms - 1.0), s, 70.0,
                     can_wait=False).kind == "breeze_front"
+
+
+def test_a_wind_shift_is_timed_by_the_wind_own_change():
+    """A turn whose own change point (beyond the noise) came 2 minutes ago is not yet a wind shift,
+    though the candidate's onset (set by an earlier drift of the air) is 9 minutes old: the turn may
+    still be in progress and bring the air. Once the wind has held WIND_SHIFT_MIN, it is one."""
+    from frontwatch.detect.classify import WIND_SHIFT_MIN
+
+    s = config().detector
+    night = dict(local_hour=23.0, minutes_after=9.0)  # (at night no breeze front is waited for)
+    d = classify(_turn_sig(change_times_min=(0.0, 0.0, 7.0), **night), s, 70.0, can_wait=True)
+    assert d.kind is None and d.wait
+    held = _turn_sig(change_times_min=(0.0, 0.0, 9.0 - WIND_SHIFT_MIN), **night)
+    assert classify(held, s, 70.0, can_wait=True).kind == "wind_shift"
+    # a wind change not beyond the noise is not timed: the onset's minutes count
+    untimed = _turn_sig(change_times_min=(0.0, 0.0, 7.0), z_onshore=1.5, **night)
+    assert classify(untimed, s, 70.0, can_wait=True).kind == "wind_shift"
+    # and once the candidate can wait no longer, the turn is a wind shift whatever its age
+    assert classify(_turn_sig(change_times_min=(0.0, 0.0, 7.0), **night), s, 70.0,
+                    can_wait=False).kind == "wind_shift"
+
+
+def test_a_held_weak_call_whose_wind_dies_to_calm_persists():
+    """Against an opposing offshore wind the front may first turn the wind into the sector lightly
+    (a weak call, waiting to persist), then still it to calm. A calm wind has not turned back
+    offshore: with the marine air still there the weak call has persisted. Without having held
+    before, or with the air gone, a calm wind is no front."""
+    s = config().detector
+    on = 0.9 * math.cos(math.radians(36.0))
+    light = _sig(dir_before=301.0, dir_after=216.0, speed_before=2.3, speed_after=0.9, spread_after=40.0,
+                 turn_deg=85.0, onshore_before=2.3 * math.cos(math.radians(121.0)), onshore_after=on,
+                 before_offset_deg=121.0, after_offset_deg=36.0, change_offset_deg=20.0, change_speed=2.4,
+                 z_onshore=6.0, minutes_after=5.0)
+    d = classify(light, s, 70.0, can_wait=True)
+    assert d.kind is None and d.wait and d.weak_held
+    calm = replace(light, minutes_after=WEAK_PERSIST_MIN + 1.0, speed_after=0.4, dir_after=NAN,
+                   after_offset_deg=NAN, onshore_after=0.2, turn_deg=NAN, spread_after=70.0)
+    assert classify(calm, s, 70.0, can_wait=True).kind is None  # never held: no call
+    d = classify(calm, s, 70.0, can_wait=True, held_weak=True)
+    assert d.kind == "breeze_front" and d.note.startswith("weak")
+    gone = replace(calm, temp_change=-0.2, z_temp=-1.0)
+    assert classify(gone, s, 70.0, can_wait=True, held_weak=True).kind != "breeze_front"
+
+
+def _without(obs, lo_min, hi_min):
+    from tests.synth import T0
+    return [o for o in obs if not lo_min <= (o.time - T0) / 60.0 < hi_min]
+
+
+@pytest.mark.parametrize("gap", [(705, 750), (716, 756)])
+def test_a_front_that_passed_while_the_station_was_silent_is_found_after(gap):
+    """A station silent for 40-45 minutes across the passage (a logger outage) reports again in the
+    marine air: the change across the gap is a breeze front, its onset the gap's middle, with a
+    note; the same record by record and in chunks."""
+    from tests.synth import T0
+
+    obs, onset = passage("breeze", seed=5)
+    holed = _without(obs, *gap)
+    fronts = [e for e in run(holed) if e.kind == "breeze_front"]
+    assert len(fronts) == 1, [e.to_dict() for e in run(holed)]
+    e = fronts[0]
+    last_before = max(o.time for o in holed if o.time < T0 + 60 * gap[0])
+    first_after = T0 + 60 * gap[1]
+    assert e.onset == 0.5 * (last_before + first_after)
+    assert e.note and "silent" in e.note
+    assert first_after < e.detected_at <= first_after + 15 * 60
+    eng = Engine(config())
+    one_by_one = [o for ob in holed for o in eng.feed(ob) if isinstance(o, PassageEvent)]
+    assert [x.to_dict() for x in one_by_one] == [x.to_dict() for x in run(holed)]
+
+
+@pytest.mark.parametrize(("kind", "gap"), [("none", (500, 545)), ("none", (690, 735)), ("shadow", (715, 760)),
+                                           ("cold", (705, 750))])
+def test_no_breeze_front_across_a_silence_without_one(kind, gap):
+    """A morning's warming, a quiet midday, a cloud shadow or a cold front across a gap of the same
+    length is no breeze front."""
+    obs, _ = passage(kind, seed=6)
+    assert not [e for e in run(_without(obs, *gap)) if e.kind == "breeze_front"]

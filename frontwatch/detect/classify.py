@@ -44,7 +44,7 @@ LIGHT_TURN_MARINE = 1.5
 EDGE_TURN_DEG = 40.0
 # Minutes after its onset at which a clear turn of a sustained wind that fits no other kind is
 # called a wind shift; a daytime turn into the onshore sector waits longer for the air to follow
-# (up to max_wait_min). A judgement, set once. (Also tried: asking the air that follows a turn
+# (up to max_wait_min). Counted from the wind's own change where that is timed. A judgement, set once. (Also tried: asking the air that follows a turn
 # after these minutes to show in full, not the half a clear turn allows: it lost weak inland
 # fronts of the generated scenarios.)
 WIND_SHIFT_MIN = 6.0
@@ -94,6 +94,7 @@ class Decision:
     wait: bool  # True: not yet decidable, look again next minute
     evidence: float = 0.0  # how strong the signature was (comparable within a kind)
     note: str = ""  # for a non-call: which breeze-front conditions failed (near-miss reports, debugging)
+    weak_held: bool = False  # waiting: a weak breeze-front call that holds, waiting to persist
 
 
 def _nz(x: float, default: float = 0.0) -> float:
@@ -122,9 +123,11 @@ def recent_turn(sig: Signature, halfwidth: float) -> bool:
 
 
 def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bool, averaging: int = 1,
-             weak_ok: bool = True) -> Decision:
+             weak_ok: bool = True, held_weak: bool = False) -> Decision:
     """The kind of change `sig` is (or None: wait, or nothing). `weak_ok` False: a weak breeze-front
-    call cannot be confirmed (a network of one station), so none is made; a clear one may follow."""
+    call cannot be confirmed (a network of one station), so none is made; a clear one may follow.
+    `held_weak`: this candidate (the same onset) was a weak call waiting to persist at an earlier
+    minute (Decision.weak_held)."""
     dT = _nz(sig.temp_change)
     dTd = _nz(sig.dewpoint_change)
     dp = _nz(sig.pressure_jump)
@@ -254,7 +257,12 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # under 1 m/s of onshore flow marks it so for the network (corroborate.is_weak).
     light_turn = offshore_turn and sig.after_offset_deg <= halfwidth and 0.5 <= _nz(sig.onshore_after) < 1.0 and \
         sig_t and moist and marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
-    wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn
+    # A weak call that held while it waited to persist, whose wind has since died to calm behind a
+    # halting front (a light breeze stilled against the opposing wind), has persisted as long as its
+    # marine air does: a calm wind has not turned back offshore. Still a weak call.
+    stilled = held_weak and calm_after and sig_t and moist and \
+        marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
+    wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn or stilled
     # A call on less than a clear turn and clearly marine air is weak: corroborate.py recognises it
     # by the same marks in the event and asks the network. Its evidence counts half, so that a clear
     # front soon after is not taken for the same regime going on. Marine air under a wind that was
@@ -274,7 +282,7 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         # A weak call waits until the change has persisted: by then a clear signature may have formed
         # (a strong call instead, which a hasty weak one would have blocked), or a passing cloud's
         # cooling begun to recover.
-        return Decision(None, 0.0, True, evidence, "breeze front? weak: waiting for it to persist")
+        return Decision(None, 0.0, True, evidence, "breeze front? weak: waiting for it to persist", True)
     if not failed:
         margin = marine / s.breeze_min_marine_index_c + (halfwidth - sig.after_offset_deg) / halfwidth \
             + evidence / s.breeze_min_evidence
@@ -296,7 +304,12 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         # (see WIND_LEADS_FACTOR): a daytime turn into the onshore sector is not yet called a mere
         # wind shift while the candidate may still wait (max_wait_min) for the air to follow. A
         # hasty wind shift would hold the station's quiet time over the breeze front that follows.
-        if can_wait and (sig.minutes_after < WIND_SHIFT_MIN or (daytime and wind_turned)):
+        # The minutes are the wind's own: where the onshore wind's change is timed (beyond the noise)
+        # later than the candidate's onset (an earlier drift of the air set the onset), they count
+        # from that change. A turn still in progress is not yet a shift, and may yet bring the air.
+        wind_age = sig.minutes_after - max(0.0, times[2]) if len(times) == 3 and sig.z_onshore >= 2.0 \
+            else sig.minutes_after
+        if can_wait and (min(sig.minutes_after, wind_age) < WIND_SHIFT_MIN or (daytime and wind_turned)):
             return Decision(None, 0.0, True, 0.0, note)
         conf = _logistic((sig.turn_deg - 45.0) / 30.0 + sig.strength / 10.0 - 1.0)
         return Decision("wind_shift", min(0.95, max(0.4, conf)), False)

@@ -38,6 +38,10 @@ _T, _TC, _TD, _ON, _AL, _P, _U, _V, _G, _R = range(10)
 NCOL = 10  # columns of a ring row (frontwatch.scan writes rows of the same layout)
 WEIGHTS = np.array([1.0, 1.0, 1.0, 0.7, 0.5])
 MIN_ROWS = 20  # rows the window needs before any evaluation
+# A silence longer than this inside the window is bridged (see _bridged); shorter ones the decision
+# window spans anyway. Up to RESET_GAP_S, beyond which the window restarts.
+BRIDGE_GAP_S = 10 * 60.0
+HELD_ONSET_S = 120.0  # a candidate's onset may move this much between minutes and be the same one
 # A vane whose minute-to-minute changes are under this share of its ten-minute changes is taken to
 # report a running mean (see _inferred_averaging); INFERRED_AVERAGING is the window then assumed.
 SMOOTH_RATIO = 0.075
@@ -80,6 +84,7 @@ class StationDetector:
         self._ring_rows: np.ndarray | None = None
         self.gate = Gate()
         self.pending = False
+        self.weak_onset = -1e18  # onset of the pending candidate while it is a weak call that holds
         self.quiet_until = -1e18
         self.last_onset: dict[str, float] = {}  # kind -> onset of the last event of that kind
         self.last_evidence: dict[str, float] = {}  # kind -> its evidence (a much stronger one may follow)
@@ -184,10 +189,18 @@ class StationDetector:
         # 6.5 intervals (the split needs 6 records before), a decision window of 2.5, and one
         # interval after the onset. At one record a minute these are the settings themselves.
         dt = _cadence_s(t)
+        t_real = t
+        gap_after = -1  # index of the first record after the newest bridged gap
+        # (cheap test first: only a window spanning more than its records' intervals can hold one)
+        if len(t) > 1 and t[-1] - t[0] > (len(t) - 1) * dt + BRIDGE_GAP_S:
+            t, gap_after = _bridged(t, dt)
+            if gap_after >= 0:
+                arr = arr.copy()  # (t_real is a view of the caller's or the ring's array)
+                arr[:, _T] = t
         baseline_s = max(st.baseline_min * 60.0, 6.5 * dt)
         wait_s = max(st.max_wait_min * 60.0, 2.5 * dt)
-        earliest = max(now - wait_s, self.quiet_until)
-        first = int(np.searchsorted(t, earliest, side="left"))
+        first = max(int(np.searchsorted(t, now - wait_s, side="left")),
+                    int(np.searchsorted(t_real, self.quiet_until, side="left")))
         last = int(np.searchsorted(t, now - max((st.confirm_min - 1) * 60.0, dt), side="right")) - 1
         w = WEIGHTS
         avg = self.averaging
@@ -200,34 +213,49 @@ class StationDetector:
             return None
         o = sp.onset_index
         t_o = t[o]
-        if t_o < self.quiet_until:
+        if t_real[o] < self.quiet_until:
             self.pending = False
             return None
-        sig = self._signature(arr, list(self.ring) if from_ring else None, sp, o, now, baseline_s, dt, avg)
+        rows = list(self.ring) if from_ring and gap_after < 0 else None  # (bridged: the rows' times are arr's)
+        sig = self._signature(arr, rows, sp, o, now, baseline_s, dt, avg)
         can_wait = now - t_o < wait_s
-        dec = classify(sig, st, self.halfwidth, can_wait, avg, not self.alone)
+        t_o_real = float(t_real[o])
+        held = self.pending and abs(t_o_real - self.weak_onset) <= HELD_ONSET_S
+        dec = classify(sig, st, self.halfwidth, can_wait, avg, not self.alone, held)
         if dec.kind is None:
             self.pending = bool(dec.wait)
+            if dec.weak_held:
+                self.weak_onset = t_o_real
+            elif not held or not dec.wait:
+                self.weak_onset = -1e18
             if self.near_misses is not None and not dec.wait and dec.note.startswith("breeze front? not ") \
                     and "," not in dec.note:
-                self.near_misses.append((self.sid, float(t_o), float(now), dec.note))
+                self.near_misses.append((self.sid, t_o_real, float(now), dec.note))
             return None
         self.pending = False
+        if o == gap_after and dec.kind != "breeze_front":
+            # Across a silence only a breeze front is called: the other kinds are timed by their
+            # onset, and an evening's cooling and turn across a gap looks like a land breeze.
+            return None
         # A wind shift is the weakest call: it only briefly blocks a stronger kind that may follow
         # (a cold front's pre-frontal veer, a breeze front after a cloud-shadow wobble).
         quiet = 10.0 if dec.kind == "wind_shift" else float(st.refractory_min)
-        self.quiet_until = t_o + quiet * 60.0
+        self.quiet_until = t_o_real + quiet * 60.0
         repeat = st.repeat_min if dec.kind in ("breeze_front", "land_breeze") else st.refractory_min
-        again = t_o - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
+        again = t_o_real - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
             dec.evidence <= 1.5 * self.last_evidence.get(dec.kind, 0.0)
         if again and not (self.emit_repeats and dec.kind == "breeze_front"):
             return None  # the same regime going on (a wobble of the onshore wind), not a new passage
         if not again:
-            self.last_onset[dec.kind] = float(t_o)
+            self.last_onset[dec.kind] = t_o_real
             self.last_evidence[dec.kind] = dec.evidence
         conf = dec.confidence * (1.0 - math.exp(-sp.strength / st.min_score))
         return PassageEvent(
-            station=self.sid, kind=dec.kind, onset=float(t_o), detected_at=float(now),
+            station=self.sid, kind=dec.kind, detected_at=float(now),
+            # a change across a bridged gap happened while the station was silent: its middle
+            onset=0.5 * (float(t_real[o - 1]) + t_o_real) if o == gap_after else t_o_real,
+            note=f"the change came while the station was silent ({(t_real[o] - t_real[o - 1]) / 60:.0f} min gap); "
+                 "its onset is the gap's middle" if o == gap_after else None,
             confidence=round(min(0.99, max(0.05, conf)), 3),
             wind_dir_before_deg=_opt(sig.early_dir if dec.kind == "breeze_front" and recent_turn(sig, self.halfwidth)
                                      else sig.dir_before),
@@ -340,7 +368,8 @@ class StationDetector:
     # ------------------------------------------------------------------ state
     def snapshot(self) -> dict[str, Any]:
         return {"ring": [[None if v != v else v for v in row] for row in self.ring], "gate": self.gate.state(),
-                "pending": bool(self.pending), "quiet_until": self.quiet_until, "last_onset": dict(self.last_onset), "last_evidence": dict(self.last_evidence)}
+                "pending": bool(self.pending), "weak_onset": self.weak_onset, "quiet_until": self.quiet_until,
+                "last_onset": dict(self.last_onset), "last_evidence": dict(self.last_evidence)}
 
     def restore(self, snap: dict[str, Any]) -> None:
         self.ring = deque((tuple(NAN if v is None else float(v) for v in row) for row in snap["ring"]),
@@ -348,9 +377,25 @@ class StationDetector:
         self.gate = Gate()
         self.gate.set_state(snap["gate"])
         self.pending = bool(snap["pending"])
+        self.weak_onset = float(snap.get("weak_onset", -1e18))  # (snapshots from before stop 13: none held)
         self.quiet_until = float(snap["quiet_until"])
         self.last_onset = {k: float(v) for k, v in snap["last_onset"].items()}
         self.last_evidence = {k: float(v) for k, v in snap["last_evidence"].items()}
+
+
+def _bridged(t: np.ndarray, dt: float) -> tuple[np.ndarray, int]:
+    """The window's times with each silence longer than BRIDGE_GAP_S shortened to one reporting
+    interval (the records before it moved later), and the index of the first record after the
+    newest such gap (-1 and the times unchanged when there is none). The windows are then counted in reported minutes: a front that passed while
+    the station was silent shows as a change across the gap, which the decision window still
+    holds when the station reports again, against a baseline from before the gap."""
+    d = np.diff(t)
+    long = np.flatnonzero(d > BRIDGE_GAP_S)
+    if not len(long):
+        return t, -1
+    excess = np.where(d > BRIDGE_GAP_S, d - dt, 0.0)
+    shift = np.concatenate([np.cumsum(excess[::-1])[::-1], [0.0]])
+    return t + shift, int(long[-1]) + 1
 
 
 def _cadence_s(t: np.ndarray) -> float:

@@ -44,9 +44,9 @@ LIGHT_TURN_MARINE = 1.5
 EDGE_TURN_DEG = 40.0
 # Minutes after its onset at which a clear turn of a sustained wind that fits no other kind is
 # called a wind shift; a daytime turn into the onshore sector waits longer for the air to follow
-# (up to max_wait_min). Counted from the wind's own change where that is timed. A judgement, set once. (Also tried: asking the air that follows a turn
-# after these minutes to show in full, not the half a clear turn allows: it lost weak inland
-# fronts of the generated scenarios.)
+# (up to max_wait_min). Counted from the wind's own change where that is timed. A judgement, set
+# once. (Also tried: asking the air that follows a turn after these minutes to show in full, not
+# the half a clear turn allows: it lost weak inland fronts of the generated scenarios.)
 WIND_SHIFT_MIN = 6.0
 
 
@@ -255,13 +255,13 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # A light breeze behind a weak front: the wind turns out of the offshore half into the sector but
     # carries under 1 m/s of onshore flow (0.5 at least), with clearly marine air. A weak call too:
     # under 1 m/s of onshore flow marks it so for the network (corroborate.is_weak).
+    light_air = sig_t and moist and marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
     light_turn = offshore_turn and sig.after_offset_deg <= halfwidth and 0.5 <= _nz(sig.onshore_after) < 1.0 and \
-        sig_t and moist and marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
+        light_air
     # A weak call that held while it waited to persist, whose wind has since died to calm behind a
     # halting front (a light breeze stilled against the opposing wind), has persisted as long as its
     # marine air does: a calm wind has not turned back offshore. Still a weak call.
-    stilled = held_weak and calm_after and sig_t and moist and \
-        marine >= LIGHT_TURN_MARINE * s.breeze_min_marine_index_c
+    stilled = held_weak and calm_after and light_air
     wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn or stilled
     # A call on less than a clear turn and clearly marine air is weak: corroborate.py recognises it
     # by the same marks in the event and asks the network. Its evidence counts half, so that a clear
@@ -309,7 +309,7 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         # from that change. A turn still in progress is not yet a shift, and may yet bring the air.
         wind_age = sig.minutes_after - max(0.0, times[2]) if len(times) == 3 and sig.z_onshore >= 2.0 \
             else sig.minutes_after
-        if can_wait and (min(sig.minutes_after, wind_age) < WIND_SHIFT_MIN or (daytime and wind_turned)):
+        if can_wait and (wind_age < WIND_SHIFT_MIN or (daytime and wind_turned)):
             return Decision(None, 0.0, True, 0.0, note)
         conf = _logistic((sig.turn_deg - 45.0) / 30.0 + sig.strength / 10.0 - 1.0)
         return Decision("wind_shift", min(0.95, max(0.4, conf)), False)

@@ -386,14 +386,16 @@ class StationDetector:
 def _bridged(t: np.ndarray, dt: float) -> tuple[np.ndarray, int]:
     """The window's times with each silence longer than BRIDGE_GAP_S shortened to one reporting
     interval (the records before it moved later), and the index of the first record after the
-    newest such gap (-1 and the times unchanged when there is none). The windows are then counted in reported minutes: a front that passed while
-    the station was silent shows as a change across the gap, which the decision window still
-    holds when the station reports again, against a baseline from before the gap."""
+    newest such gap (-1 and the times unchanged when there is none). The windows are then counted
+    in reported minutes: a front that passed while the station was silent shows as a change across
+    the gap, which the decision window still holds when the station reports again, against a
+    baseline from before the gap."""
     d = np.diff(t)
     long = np.flatnonzero(d > BRIDGE_GAP_S)
     if not len(long):
         return t, -1
-    excess = np.where(d > BRIDGE_GAP_S, d - dt, 0.0)
+    excess = np.zeros_like(d)
+    excess[long] = d[long] - dt
     shift = np.concatenate([np.cumsum(excess[::-1])[::-1], [0.0]])
     return t + shift, int(long[-1]) + 1
 

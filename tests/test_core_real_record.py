@@ -45,3 +45,34 @@ def test_no_breeze_front_at_night_or_in_the_rain_outflow():
     # the storm itself is reported, as convective outflow
     assert any(e.kind == "gust_front" and datetime(2017, 4, 15, 14, 30) <= t <= datetime(2017, 4, 15, 15, 30)
                for t, e in evs)
+
+
+def _holed_events(gaps):
+    """The excerpt's events with the records inside each (start, end) local time cut out."""
+    from frontwatch.replay import Decoded, merge, read_file, run_decoded
+
+    cfg = load_network(ROOT / "examples/real-coastal-s116.toml")
+    d = merge([read_file(ROOT / "tests/data/real-s116-excerpt.csv.gz", cfg)])
+    t = d.columns["time"]
+    keep = t == t
+    for lo, hi in gaps:
+        a, b = ((datetime.fromisoformat(x) - LOCAL).replace(tzinfo=UTC).timestamp() for x in (lo, hi))
+        keep &= ~((t >= a) & (t < b))
+    res = run_decoded(Decoded(d.station[keep], {k: v[keep] for k, v in d.columns.items()}), cfg)
+    return [(datetime.fromtimestamp(e.onset, UTC).replace(tzinfo=None) + LOCAL, e) for e in res.events]
+
+
+def test_judged_passages_are_found_across_a_silence():
+    # The logger silent for 35 minutes from 10 minutes before each judged passage (a generic outage,
+    # not fitted to the data): the passage is called when the station reports again, timed to the
+    # gap's middle; the rain storm with a silence across its start is still no breeze front.
+    gaps = [("2017-02-05 13:17", "2017-02-05 13:52"), ("2017-03-22 13:40", "2017-03-22 14:15"),
+            ("2017-04-15 14:34", "2017-04-15 15:09")]
+    evs = _holed_events(gaps)
+    for lo, hi in gaps[:2]:
+        t0, t1 = datetime.fromisoformat(lo), datetime.fromisoformat(hi)
+        hits = [e for t, e in evs if e.kind == "breeze_front" and t0 - timedelta(minutes=20) <= t <= t1]
+        assert len(hits) == 1, (lo, [(t, e.kind, e.note) for t, e in evs])
+        assert hits[0].note and "silent" in hits[0].note
+    assert not [t for t, e in evs if e.kind == "breeze_front" and
+                datetime(2017, 4, 15, 14, 30) <= t <= datetime(2017, 4, 15, 17, 30)]

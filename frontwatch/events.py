@@ -38,6 +38,10 @@ class PassageEvent:
     # of its previous one, as strong. Whether that is the same regime going on (dropped) or a new
     # passage after a call the network did not confirm is the network's to say (corroborate.py).
     repeat: bool = False
+    # Internal too: how far either way the true onset may lie from `onset`, s (0: timed to the
+    # minute). A passage found across a silence of the station has its onset at the gap's middle,
+    # give or take half the gap; the tracker does not fit its time (network/track.py).
+    onset_spread_s: float = 0.0
 
     def __post_init__(self) -> None:
         if self.kind not in KINDS:

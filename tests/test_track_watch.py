@@ -318,3 +318,40 @@ def test_a_station_far_across_the_track_confirms_only_beyond_the_heading_doubt()
     f = fit(20.0)
     # 11 km ahead: beyond the 10.2 km doubt
     assert SiteWatch._beyond(f, -11000.0, 28000.0, site, 0.0, SiteWatch._heading_doubt(f))  # type: ignore[arg-type]
+
+
+def test_a_passage_found_across_a_silence_is_reached_but_not_fitted() -> None:
+    """Three stations timed to the minute fit a front at 2.5 m/s (hand-made onsets: 6 km apart, 40
+    min); a fourth, further along, reported after a 50-minute silence with its onset at the gap's
+    middle (25 min either way) 18 min off the line. It joins the front (within its spread) and
+    counts as reached, but the fit is that of the three timed ones."""
+    from dataclasses import replace
+
+    from frontwatch.network.track import FrontTracker
+
+    pos = {"A": (0.0, 0.0, 90.0), "B": (-6000.0, 0.0, 90.0), "C": (-12_000.0, 3000.0, 90.0),
+           "D": (-18_000.0, 0.0, 90.0)}
+
+    def ev(st: str, onset: float) -> PassageEvent:
+        return PassageEvent(st, "breeze_front", onset, onset + 240.0, 0.9, 270.0, 90.0, -2.0, -1.5, 2.0, 0.3,
+                            speed_after_ms=4.0, gust_after_ms=6.0, temp_after_c=24.0)
+
+    def fronts(untimed_spread: float) -> FrontTracker:
+        tr = FrontTracker(pos)
+        for st, k in (("A", 0), ("B", 1), ("C", 2)):
+            tr.add(ev(st, T0 + k * 2400.0))
+        tr.add(replace(ev("D", T0 + 3 * 2400.0 + 18 * 60.0), onset_spread_s=untimed_spread))
+        return tr
+
+    three = FrontTracker(pos)
+    for st, k in (("A", 0), ("B", 1), ("C", 2)):
+        three.add(ev(st, T0 + k * 2400.0))
+    tr = fronts(25 * 60.0)
+    assert len(tr.fronts) == 1 and set(tr.fronts[0].arrivals) == {"A", "B", "C", "D"}
+    f, f3 = tr.fronts[0].fit, three.fronts[0].fit
+    assert f is not None and f3 is not None
+    assert f.speed_ms == f3.speed_ms and f.heading_deg == f3.heading_deg
+    assert f.speed_ms == pytest.approx(2.5, rel=0.02)
+    # timed to the minute, the same passage is fitted and slows the front
+    timed = fronts(0.0).fronts[0].fit
+    assert timed is not None and timed.speed_ms < 0.95 * f.speed_ms

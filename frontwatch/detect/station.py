@@ -256,6 +256,7 @@ class StationDetector:
             onset=0.5 * (float(t_real[o - 1]) + t_o_real) if o == gap_after else t_o_real,
             note=f"the change came while the station was silent ({(t_real[o] - t_real[o - 1]) / 60:.0f} min gap); "
                  "its onset is the gap's middle" if o == gap_after else None,
+            onset_spread_s=0.5 * (t_o_real - float(t_real[o - 1])) if o == gap_after else 0.0,
             confidence=round(min(0.99, max(0.05, conf)), 3),
             wind_dir_before_deg=_opt(sig.early_dir if dec.kind == "breeze_front" and recent_turn(sig, self.halfwidth)
                                      else sig.dir_before),

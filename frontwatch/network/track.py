@@ -62,6 +62,7 @@ class Arrival:
     gust_after_ms: float | None
     temp_change_c: float | None
     temp_after_c: float | None
+    onset_spread_s: float = 0.0  # PassageEvent.onset_spread_s (states from before stop 13 lack it: 0)
 
     def to_state(self) -> list[Any]:
         return [getattr(self, f) for f in self.__slots__]
@@ -81,7 +82,7 @@ def arrival_from_event(ev: PassageEvent, x: float, y: float, onshore_from_deg: f
         sb = _num(ev.speed_after_ms - ev.speed_change_ms)
     return Arrival(ev.station, x, y, ev.onset, ev.detected_at, ev.confidence, (onshore_from_deg + 180.0) % 360.0,
                    _num(ev.wind_dir_before_deg), _num(ev.wind_dir_after_deg), sb, _num(ev.speed_after_ms),
-                   _num(ev.gust_after_ms), _num(ev.temp_change_c), _num(ev.temp_after_c))
+                   _num(ev.gust_after_ms), _num(ev.temp_change_c), _num(ev.temp_after_c), ev.onset_spread_s)
 
 
 @dataclass
@@ -102,7 +103,11 @@ class Front:
 
     def refit(self) -> None:
         self.cache.clear()
-        pts = [(a.x, a.y, a.onset) for a in self.arrivals.values()]
+        # Only passages timed to the minute are fitted: one found across a station's silence is
+        # known to within half the gap (up to 30 min), which would pull the fit (it still counts
+        # as reached). If none is timed, the untimed ones are all there is.
+        timed = [a for a in self.arrivals.values() if not a.onset_spread_s] or list(self.arrivals.values())
+        pts = [(a.x, a.y, a.onset) for a in timed]
         prior = density_prior(
             PassageFacts(a.shore_to_deg, a.temp_change_c, a.temp_after_c, a.dir_before_deg, a.speed_before_ms)
             for a in self.arrivals.values()
@@ -175,6 +180,7 @@ class FrontTracker:
             lo, hi = min(t_acc, t_lin), max(t_acc, t_lin)
             t_pred = t_acc
             err = lo - arr.onset if arr.onset < lo else (arr.onset - hi if arr.onset > hi else 0.0)
+            err = max(0.0, err - arr.onset_spread_s)  # (an untimed onset: anywhere in its spread)
             if fr.stalled_at is not None and arr.onset > t_pred:
                 # A stalled front that moves on later: accept a late arrival further along.
                 err = 0.0 if fr.fit.progress(arr.x, arr.y) > fr.max_progress() else err

@@ -125,6 +125,9 @@ class DetectorSettings(_Strict):
     gust_front_temp_drop_c: float = Field(3.5, gt=0)  # Engerer et al. 2008: 5-11 K drops
     gust_front_gust_ms: float = Field(12.0, gt=0)
     cold_front_dewpoint_fall_c: float = Field(1.0, gt=0)  # Ahrens: dewpoint falls behind a cold front
+    # ... and, unless the pressure jumps, the air behind it is colder against the day's trend (Ahrens,
+    # from memory): a drier wind that is not cooler is the morning's mixing-out or a dry downdraft
+    cold_front_temp_drop_c: float = Field(0.5, ge=0)
     land_breeze_max_ms: float = Field(6.0, gt=0)
 
 

@@ -556,3 +556,23 @@ def test_no_breeze_front_across_a_silence_without_one(kind, gap):
     length is no breeze front."""
     obs, _ = passage(kind, seed=6)
     assert not [e for e in run(_without(obs, *gap)) if e.kind == "breeze_front"]
+
+
+def test_a_drier_wind_that_is_not_colder_is_no_cold_front():
+    """Behind a cold front the air is drier and colder (Ahrens, from memory), or the pressure jumps
+    (DOMAIN.md section 3). A turn with the dewpoint 1.5 degC lower but the temperature up (the
+    morning's mixing-out of moisture) waits while it may for the cooling, then is a wind shift; the
+    same with 1 degC of cooling, or with a 1.5 hPa pressure jump, is a cold front."""
+    s = config().detector
+    drier = _sig(dir_before=270.0, dir_after=330.0, speed_before=4.0, speed_after=5.0, spread_after=15.0,
+                 turn_deg=60.0, onshore_before=0.0, onshore_after=-2.5, before_offset_deg=90.0,
+                 after_offset_deg=150.0, change_offset_deg=170.0, change_speed=3.0, z_onshore=-4.0,
+                 temp_change=0.4, z_temp=3.0, dewpoint_change=-1.5, z_dewpoint=-10.0, pressure_jump=0.1,
+                 local_hour=10.0)
+    d = classify(drier, s, 70.0, can_wait=True)
+    assert d.kind is None and d.wait
+    assert classify(drier, s, 70.0, can_wait=False).kind == "wind_shift"
+    colder = replace(drier, temp_change=-1.0, z_temp=-8.0)
+    assert classify(colder, s, 70.0, can_wait=False).kind == "cold_front"
+    jump = replace(drier, pressure_jump=1.5)
+    assert classify(jump, s, 70.0, can_wait=False).kind == "cold_front"

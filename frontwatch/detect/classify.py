@@ -158,12 +158,19 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     turned = (sig.turn_deg == sig.turn_deg and sig.turn_deg >= s.min_shift_deg) or (calm_before and not calm_after)
     daytime = s.day_start_h <= sig.local_hour < s.day_end_h
 
-    # 2. Synoptic cold front: drier air behind a shift.
-    if has_moist and dTd <= -s.cold_front_dewpoint_fall_c and (turned or dp >= 0.8) and not saturated and \
+    # 2. Synoptic cold front: drier air behind a shift, with the pressure rising sharply (DOMAIN.md
+    # section 3) or, where that is not seen, colder air too (Ahrens, from memory): a drier wind that
+    # is not cooler is the morning's mixing-out of moisture or a dry downdraft as often. The cooling
+    # may lag the shift and the drying: while the candidate may wait, it waits for it.
+    if has_moist and dTd <= -s.cold_front_dewpoint_fall_c and \
+            (turned or dp >= 0.8) and not saturated and \
             not (not daytime and sig.after_offset_deg > 180 - halfwidth and sig.speed_after <= s.land_breeze_max_ms
                  and dTd > -2 * s.cold_front_dewpoint_fall_c and dp < 0.8):
-        conf = _logistic(-dTd / s.cold_front_dewpoint_fall_c + dp - 0.5)
-        return Decision("cold_front", min(0.99, max(0.5, conf)), False)
+        if dT <= -s.cold_front_temp_drop_c or dp >= 0.8:
+            conf = _logistic(-dTd / s.cold_front_dewpoint_fall_c + dp - 0.5)
+            return Decision("cold_front", min(0.99, max(0.5, conf)), False)
+        if can_wait:
+            return Decision(None, 0.0, True, 0.0, "cold front? drier, not yet colder: waiting")
 
     settled = sig.spread_after <= 60.0 and not calm_after
 

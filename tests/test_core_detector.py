@@ -576,3 +576,36 @@ def test_a_drier_wind_that_is_not_colder_is_no_cold_front():
     assert classify(colder, s, 70.0, can_wait=False).kind == "cold_front"
     jump = replace(drier, pressure_jump=1.5)
     assert classify(jump, s, 70.0, can_wait=False).kind == "cold_front"
+
+
+def _cold_then_breeze(cf_min: int, bf_min: int, seed: int = 3):
+    """Station A's day: a cold front at `cf_min` (the wind veers 300 -> 340 deg, 1.2 degC colder,
+    2.5 degC drier) and a breeze front at `bf_min` (the wind swings onshore to 180 deg, 1.5 degC
+    colder, 3 degC moister), no pressure sensor."""
+    from frontwatch.obs import Observation
+    from tests.synth import T0
+
+    rng = np.random.default_rng(seed)
+    out = []
+    for m in range(900):
+        c = min(1.0, max(0.0, (m - cf_min + 1) / 4))
+        b = min(1.0, max(0.0, (m - bf_min + 1) / 4))
+        temp = (18.0 + 8.0 * math.sin(math.pi * (m - 360) / 720) if 360 <= m <= 1080 else 18.0) - 1.2 * c - 1.5 * b
+        td = 14.0 - 2.5 * c + 3.0 * b
+        wd = (300.0 + 40.0 * c) % 360 if b == 0 else (340.0 + 200.0 * b) % 360
+        out.append(Observation("A", T0 + 60.0 * m, round((wd + 8 * rng.standard_normal()) % 360, 0),
+                               round(max(0.0, 4.0 + c + 0.3 * rng.standard_normal()), 1), NAN,
+                               round(temp + 0.08 * rng.standard_normal(), 1), round(td + 0.1 * rng.standard_normal(), 1),
+                               NAN, 0.0))
+    return out
+
+
+@pytest.mark.parametrize("gap_min", [22, 30])
+def test_a_breeze_front_soon_after_a_cold_front_is_called(gap_min):
+    """A cold front's drier air is no breeze front's moister air going on: the breeze front 22-30
+    minutes later (within the refractory time) is called, and nothing else in between."""
+    from tests.synth import T0
+
+    evs = run(_cold_then_breeze(690, 690 + gap_min))
+    assert [(e.kind, round((e.onset - T0) / 60)) for e in evs] == \
+        [("cold_front", 691), ("breeze_front", 691 + gap_min)]

@@ -86,6 +86,8 @@ class StationDetector:
         self.pending = False
         self.weak_onset = -1e18  # onset of the pending candidate while it is a weak call that holds
         self.quiet_until = -1e18
+        # ... and until when only a breeze front may be called (after a cold front: see _evaluate)
+        self.others_quiet_until = -1e18
         self.last_onset: dict[str, float] = {}  # kind -> onset of the last event of that kind
         self.last_evidence: dict[str, float] = {}  # kind -> its evidence (a much stronger one may follow)
         # Analysts' hook (frontwatch label): when a list, breeze-front candidates that failed exactly
@@ -233,14 +235,18 @@ class StationDetector:
                 self.near_misses.append((self.sid, t_o_real, float(now), dec.note))
             return None
         self.pending = False
-        if o == gap_after and dec.kind != "breeze_front":
+        if (o == gap_after or t_o_real < self.others_quiet_until) and dec.kind != "breeze_front":
             # Across a silence only a breeze front is called: the other kinds are timed by their
             # onset, and an evening's cooling and turn across a gap looks like a land breeze.
+            # Likewise in the quiet time after a cold front (below).
             return None
         # A wind shift is the weakest call: it only briefly blocks a stronger kind that may follow
-        # (a cold front's pre-frontal veer, a breeze front after a cloud-shadow wobble).
+        # (a cold front's pre-frontal veer, a breeze front after a cloud-shadow wobble). A cold
+        # front's drier air is no breeze front's moister one going on: the breeze front that may
+        # follow is held off as briefly (the other kinds for the whole refractory time).
         quiet = 10.0 if dec.kind == "wind_shift" else float(st.refractory_min)
-        self.quiet_until = t_o_real + quiet * 60.0
+        self.quiet_until = t_o_real + (10.0 if dec.kind == "cold_front" else quiet) * 60.0
+        self.others_quiet_until = t_o_real + quiet * 60.0
         repeat = st.repeat_min if dec.kind in ("breeze_front", "land_breeze") else st.refractory_min
         again = t_o_real - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
             dec.evidence <= 1.5 * self.last_evidence.get(dec.kind, 0.0)
@@ -370,6 +376,7 @@ class StationDetector:
     def snapshot(self) -> dict[str, Any]:
         return {"ring": [[None if v != v else v for v in row] for row in self.ring], "gate": self.gate.state(),
                 "pending": bool(self.pending), "weak_onset": self.weak_onset, "quiet_until": self.quiet_until,
+                "others_quiet_until": self.others_quiet_until,
                 "last_onset": dict(self.last_onset), "last_evidence": dict(self.last_evidence)}
 
     def restore(self, snap: dict[str, Any]) -> None:
@@ -380,6 +387,7 @@ class StationDetector:
         self.pending = bool(snap["pending"])
         self.weak_onset = float(snap.get("weak_onset", -1e18))  # (snapshots from before stop 13: none held)
         self.quiet_until = float(snap["quiet_until"])
+        self.others_quiet_until = float(snap.get("others_quiet_until", self.quiet_until))  # (before stop 13: one)
         self.last_onset = {k: float(v) for k, v in snap["last_onset"].items()}
         self.last_evidence = {k: float(v) for k, v in snap["last_evidence"].items()}
 

@@ -276,7 +276,7 @@ def test_stations_reporting_every_5_or_10_minutes_still_show_their_fronts(every_
     assert lookalike_bf == 0
 
 
-def test_light_turn_into_the_sector_is_weak_and_a_lone_station_makes_no_weak_call():
+def test_light_turn_into_the_sector_is_weak_and_a_lone_station_makes_it_only_once_it_persisted():
     s = config().detector
     # Offshore 2.3 m/s (121 deg off the onshore bearing) turned into the sector (36 deg off) at
     # 1.1 m/s: 0.89 m/s of onshore flow, under what stands on its own (corroborate.WEAK_ONSHORE_MS).
@@ -293,6 +293,16 @@ def test_light_turn_into_the_sector_is_weak_and_a_lone_station_makes_no_weak_cal
     # a lone station: no network can confirm a weak call, so none is made and it keeps waiting
     alone = classify(light, s, 70.0, can_wait=True, weak_ok=False)
     assert alone.kind is None and alone.wait and "confirmable" in alone.note
+    # ... until it has held through the whole decision window: then it has persisted and is made
+    assert alone.weak_held
+    assert classify(light, s, 70.0, can_wait=False, weak_ok=False).kind != "breeze_front"  # never held
+    d = classify(light, s, 70.0, can_wait=False, weak_ok=False, held_weak=True)
+    assert d.kind == "breeze_front" and d.note.startswith("weak")
+    # not on the air alone (no wind measured), nor with the wind gone back into the offshore half
+    assert classify(replace(light, speed_before=NAN, speed_after=NAN, dir_after=NAN, after_offset_deg=NAN),
+                    s, 70.0, can_wait=False, weak_ok=False, held_weak=True).kind != "breeze_front"
+    assert classify(replace(light, after_offset_deg=120.0, onshore_after=-0.5), s, 70.0, can_wait=False,
+                    weak_ok=False, held_weak=True).kind != "breeze_front"
     # while a clear call (the same turn at 3 m/s onshore, settled) stands alone as before
     clear = replace(light, speed_after=3.0, onshore_after=3.0 * math.cos(math.radians(36.0)), spread_after=20.0)
     d = classify(clear, s, 70.0, can_wait=False, weak_ok=False)
@@ -609,3 +619,13 @@ def test_a_breeze_front_soon_after_a_cold_front_is_called(gap_min):
     evs = run(_cold_then_breeze(690, 690 + gap_min))
     assert [(e.kind, round((e.onset - T0) / 60)) for e in evs] == \
         [("cold_front", 691), ("breeze_front", 691 + gap_min)]
+
+
+def test_a_lone_station_weak_call_stands_in_the_network_step():
+    """A one-station network's detector makes a weak call only once it has persisted through the
+    whole decision window; the network step has no one to ask and lets it stand."""
+    cor = Corroborator(parse_network({"network": {"name": "one", "utc_offset_hours": 0},
+                                      "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0}]}))
+    assert cor.check(_front("A", 1767268800.0, weak=True)).kind == "breeze_front"
+    # two stations: the same weak call with nobody else's front is not confirmed
+    assert Corroborator(_two_stations()).check(_front("A", 1767268800.0, weak=True)).kind == "wind_shift"

@@ -269,7 +269,15 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # halting front (a light breeze stilled against the opposing wind), has persisted as long as its
     # marine air does: a calm wind has not turned back offshore. Still a weak call.
     stilled = held_weak and calm_after and light_air
-    wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn or stilled
+    # A weak call on a turn out of the offshore half that held through the whole decision window (it
+    # can wait no longer) has persisted as long as its marine air does (moister beyond the noise)
+    # and its wind has not turned back into the offshore half. At a lone station (no network to
+    # confirm it) this is the only weak call made: not on the air alone, nor under a wind that was
+    # onshore already (see `weak` below).
+    persisted = held_weak and not can_wait and light_air and sig_d and not wind_missing and \
+        sig.speed_before == sig.speed_before and sig.before_offset_deg > 90.0 and \
+        (calm_after or sig.after_offset_deg <= 90.0)
+    wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn or stilled or persisted
     # A call on less than a clear turn and clearly marine air is weak: corroborate.py recognises it
     # by the same marks in the event and asks the network. Its evidence counts half, so that a clear
     # front soon after is not taken for the same regime going on. Marine air under a wind that was
@@ -282,9 +290,12 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
                                     ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence), ("dry", dry),
                                     ("breeze-strength", not squall),
-                                    ("confirmable", weak_ok or not weak)) if not ok]
+                                    ("confirmable", weak_ok or not weak or persisted)) if not ok]
     if not failed and convective and can_wait:
         return Decision(None, 0.0, True, evidence, "breeze front? convective signs: waiting for a gust front")
+    if can_wait and not weak_ok and failed == ["confirmable"]:
+        # A lone station's weak call: remembered while it holds, made only if it persists (above).
+        return Decision(None, 0.0, True, evidence, "breeze front? not confirmable (alone): waiting for it to persist", True)
     if not failed and weak and can_wait and sig.minutes_after < WEAK_PERSIST_MIN:
         # A weak call waits until the change has persisted: by then a clear signature may have formed
         # (a strong call instead, which a hasty weak one would have blocked), or a passing cloud's

@@ -15,8 +15,9 @@ under 1 m/s of onshore flow yet, or inland an already-onshore wind where only th
 classify.py) needs more. Inland: the latest front among the stations nearer the water on the same
 shore came before it, at a time a density current could have taken to come this far (implied speed
 between MIN_FRONT_MS and MAX_FRONT_MS). At the shore: any other station's front within `hours`.
-An unconfirmed weak call marks nothing as seen; in a single-station network it is never confirmed
-(strong calls there are unaffected).
+An unconfirmed weak call marks nothing as seen. In a single-station network the detector makes a
+weak call only once it has persisted through its whole decision window, on a wind turned out of
+the offshore half (classify.py), and it stands: there is no one to ask.
 
 A station's detector marks a breeze front found within repeat_min of its previous one (and not much
 stronger) as a `repeat`. When the station's last breeze front that the network let stand is that
@@ -68,6 +69,9 @@ class Corroborator:
     def __init__(self, config: NetworkConfig) -> None:
         self.hours = config.detector.corroborate_hours
         sts = config.stations
+        # a lone station's detector makes a weak call only once it has persisted through the whole
+        # decision window (classify.py): no other station could confirm it, and it stands
+        self.alone = len(sts) == 1
         lat0 = sum(s.lat for s in sts) / len(sts) if sts else 0.0
         lon0 = sum(s.lon for s in sts) / len(sts) if sts else 0.0
         xy = {s.id: local_xy_m(s.lat, s.lon, lat0, lon0) for s in sts}
@@ -126,7 +130,7 @@ class Corroborator:
             # A weak call inland must fit a front travelling from the water; at the shore (no station
             # nearer the water) it needs another station's front within the hours, like a strong
             # inland call. Unconfirmed, it marks nothing as seen.
-            if recent if coastal else self._travelled(ev):
+            if self.alone or (recent if coastal else self._travelled(ev)):
                 self.last_seen[ev.station] = ev.onset
                 return ev
             self.last_weak[ev.station] = ev.onset

@@ -256,13 +256,13 @@ class StationDetector:
             self.last_onset[dec.kind] = t_o_real
             self.last_evidence[dec.kind] = dec.evidence
         conf = dec.confidence * (1.0 - math.exp(-sp.strength / st.min_score))
+        # a change across a bridged gap happened while the station was silent: timed to its middle
+        gap_s = t_o_real - float(t_real[o - 1]) if o == gap_after else 0.0
         return PassageEvent(
             station=self.sid, kind=dec.kind, detected_at=float(now),
-            # a change across a bridged gap happened while the station was silent: its middle
-            onset=0.5 * (float(t_real[o - 1]) + t_o_real) if o == gap_after else t_o_real,
-            note=f"the change came while the station was silent ({(t_real[o] - t_real[o - 1]) / 60:.0f} min gap); "
-                 "its onset is the gap's middle" if o == gap_after else None,
-            onset_spread_s=0.5 * (t_o_real - float(t_real[o - 1])) if o == gap_after else 0.0,
+            onset=t_o_real - 0.5 * gap_s, onset_spread_s=0.5 * gap_s,
+            note=f"the change came while the station was silent ({gap_s / 60:.0f} min gap); "
+                 "its onset is the gap's middle" if gap_s else None,
             confidence=round(min(0.99, max(0.05, conf)), 3),
             wind_dir_before_deg=_opt(sig.early_dir if dec.kind == "breeze_front" and recent_turn(sig, self.halfwidth)
                                      else sig.dir_before),

@@ -16,7 +16,7 @@ all seeds:
 - alerts for sites the front never reached (should be none) and alert state changes per front
   and site, with reversals (imminent -> approaching) counted as flaps.
 
-    .venv/bin/python bench/track_skill.py --seeds 11 12 13 14 15 16 17 18 --days 4 [--stations 9]
+    .venv/bin/python bench/track_skill.py --seeds 11 12 13 14 15 16 17 18 --days 4 [--stations 9] [--plan breeze_stall]
 
 Two sources of passages: the station detectors (the whole core, as deployed; its figures move with
 the detector) and 'oracle' passages made from the scenario's true labels with onset noise and a
@@ -130,8 +130,8 @@ def oracle_events(sc: Any, cfg: Any, seed: int) -> dict[tuple[str, float], Passa
     return out
 
 
-def run_seed(seed: int, days: int, stations: int, mode: str) -> dict[str, Any]:
-    sc = generate(ScenarioSpec(seed=seed, days=days, stations=stations))
+def run_seed(seed: int, days: int, stations: int, mode: str, plan: tuple[str, ...] | None = None) -> dict[str, Any]:
+    sc = generate(ScenarioSpec(seed=seed, days=days, stations=stations, plan=plan))
     cfg = parse_network(sc.network, f"sim-seed-{seed}")
     dec = decode_frame(sc.observations, cfg, f"sim-seed-{seed}")
     t0 = time.perf_counter()
@@ -270,6 +270,9 @@ def main() -> None:
     ap.add_argument("--days", type=int, default=4)
     ap.add_argument("--stations", type=int, default=9)
     ap.add_argument("--paths", action="store_true", help="print each alert's state path")
+    ap.add_argument("--plan", default=None,
+                    help="day kinds, comma-separated and cycled over the days (e.g. breeze_stall: fronts that "
+                         "stop short, some of them before a site); default the generator's random mix")
     ap.add_argument("--events", choices=("detector", "oracle", "both"), default="both",
                     help="passages from the station detectors, from the true labels (tracking alone), or both")
     a = ap.parse_args()
@@ -283,7 +286,7 @@ def report(a: argparse.Namespace, mode: str) -> None:
     print("seed fronts tracked | speed err (vs mean, vs now) | heading err | ETA |err| med, n | "
           "first lead min | never-reached alerts | flaps max-changes | rec/s")
     for s in a.seeds:
-        r = run_seed(s, a.days, a.stations, mode)
+        r = run_seed(s, a.days, a.stations, mode, tuple(a.plan.split(",")) if a.plan else None)
         allr.append(r)
         se = ", ".join(f"{x:+.0%}/{y:+.0%}" for x, y in r["speed_err"])
         hs = ", ".join(f"{x:+.0f}" for x in r["head_err"])

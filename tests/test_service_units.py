@@ -155,10 +155,16 @@ def test_store_outbox_marks_published(tmp_path: Path) -> None:
                                          ("k1", "p/events/A", {"id": "k1"}, False, 1.0)])
     assert new == ["k1"]
     assert s.commit_batch([], [("k1", "p/events/A", {"id": "k1"}, False, 2.0)]) == []
+    assert s.unsent == 1  # the duplicate key was not stored again
     p = s.unpublished()
     assert [x.key for x in p] == ["k1"]
     s.mark_published([p[0].n])
-    assert s.unpublished() == []
+    s.mark_published([p[0].n])  # an acknowledgement repeated (a reconnect) counts once
+    assert s.unpublished() == [] and s.unsent == 0
+    s.commit_batch([], [("k2", "p/events/A", {"id": "k2"}, False, 3.0)])
+    s.close()
+    assert Store(tmp_path / "o.sqlite").unsent == 1  # reopened: counted from the file
+    s = Store(tmp_path / "o.sqlite")
     s.save_snapshot({"version": 1}, {})
     assert s.latest_snapshot() == (1, {"version": 1})
     assert list(s.journal_after(0)) == []  # the snapshot covers it: trimmed

@@ -299,8 +299,7 @@ class Service:
 
     def settled(self) -> bool:
         """Nothing in hand: the inbox empty, every batch stored and acknowledged, every output sent."""
-        return (not self.inbox and not self._store_jobs and not self._unjournalled
-                and not self.store.unpublished(1))
+        return not self.inbox and not self._store_jobs and not self._unjournalled and not self.store.unsent
 
     # --- broker connection ------------------------------------------------------------------
     async def _broker_loop(self) -> None:

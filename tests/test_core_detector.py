@@ -215,6 +215,30 @@ def test_clear_inland_call_after_a_weak_one_nearer_the_water(minutes, kept):
     assert (out.kind == "breeze_front") == kept, out.note
 
 
+def _far_pair():
+    # B lies 38 km inland (north) of A: 38 km = 0.34174 deg of latitude (1 deg = 111.195 km).
+    return parse_network({"network": {"name": "far-pair", "utc_offset_hours": 0},
+                          "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0},
+                                       {"id": "B", "lat": 40.34174, "lon": 0.0, "onshore_from_deg": 180.0}]})
+
+
+@pytest.mark.parametrize(("hours", "kept"), [
+    (38000 / 1.4 / 3600, True),  # 7.5 h at the mean lake-breeze front speed (Keeler & Kristovich 2012)
+    (38000 / 3.0 / 3600, True),  # 3.5 h: within corroborate_hours (4) anyway
+    (12.5, False),  # longer than the daytime window (08-20 local): not the same breeze day
+    (26.0, False),  # 13:00 the next day: the shore station's front was the day before's
+])
+def test_clear_inland_call_far_from_the_shore_station(hours, kept):
+    # Two stations far apart: the front seen at the shore took longer than corroborate_hours to
+    # come 38 km. A clear inland call that day, at a density current's pace from the shore
+    # station's front, stands; one more than the daytime window after it does not.
+    cor = Corroborator(_far_pair())
+    t0 = 1767268800.0 + 11 * 3600  # 11:00 local
+    assert cor.check(_front("A", t0, weak=False)).kind == "breeze_front"
+    out = cor.check(_front("B", t0 + hours * 3600.0, weak=False))
+    assert (out.kind == "breeze_front") == kept, out.note
+
+
 def test_weak_channel_change_time_gets_a_wider_allowance():
     # Onshore turn and cooling at the onset; the dewpoint's own best split 9 minutes earlier. A
     # moisture rise barely beyond the noise (z = 3) cannot be timed that closely (the change-point

@@ -5,9 +5,12 @@ A station is 'coastal' when no other station facing the same way (onshore bearin
 SAME_SHORE_DEG) lies more than COAST_MARGIN_KM towards the water from it (along its own onshore
 bearing: the water lies where the onshore wind blows from). A coastal
 station's breeze front stands on its own. An inland station's stands when any other station called
-a breeze-like change (accepted or not) within the last `hours`; otherwise it is reported as a
-`wind_shift` with a note, since the signature alone did not convince the network. The first inland
-call after a missed coastal passage is the only one lost: it still counts as 'seen' for the others.
+a breeze-like change (accepted or not) within the last `hours`, or when a station nearer the water
+saw a front earlier the same breeze day (within the daytime window) at a distance a density
+current could have covered since (stations far apart: 40 km at 1-2 m/s takes longer than `hours`);
+otherwise it is reported as a `wind_shift` with a note, since the signature alone did not convince
+the network. The first inland call after a missed coastal passage is the only one lost: it still
+counts as 'seen' for the others.
 
 A *weak* call (the classifier accepted a signature below what stands on its own: the air alone
 where the vane is missing or stuck, a wind that has turned out of the offshore half but carries
@@ -68,6 +71,10 @@ def is_weak(ev: PassageEvent, onshore_from_deg: float, halfwidth_deg: float, coa
 class Corroborator:
     def __init__(self, config: NetworkConfig) -> None:
         self.hours = config.detector.corroborate_hours
+        # A front and its passages inland belong to one breeze day: from the front's forming to its
+        # passage far inland takes up to the whole daytime window (a 40 km trip at 1-2 m/s is 6-11
+        # hours), longer than `hours` between two stations far apart.
+        self.day_s = max(0.0, config.detector.day_end_h - config.detector.day_start_h) * 3600.0
         sts = config.stations
         # a lone station's detector makes a weak call only once it has persisted through the whole
         # decision window (classify.py): no other station could confirm it, and it stands
@@ -92,10 +99,12 @@ class Corroborator:
         self.last_front: dict[str, float] = {}  # station -> onset of its last breeze front let stand
         self.last_weak: dict[str, float] = {}  # station -> onset of its last weak call not confirmed
 
-    def _travelled(self, ev: PassageEvent, seen_at: dict[str, float] | None = None) -> bool:
+    def _travelled(self, ev: PassageEvent, seen_at: dict[str, float] | None = None,
+                   within_s: float | None = None) -> bool:
         """The front was last seen nearer the water (the latest call among this station's seaward
         neighbours, in `seen_at`: by default the calls that marked the front seen) before this
-        onset, at a distance a density current could have covered since."""
+        onset, within `within_s` (default `hours`), at a distance a density current could have
+        covered since."""
         at = self.last_seen if seen_at is None else seen_at
         seen = [(t, k, dist) for k, dist in self.seaward.get(ev.station, [])
                 if (t := at.get(k)) is not None and t < ev.onset]
@@ -103,7 +112,8 @@ class Corroborator:
             return False
         t, _, dist = max(seen)
         dt = ev.onset - t
-        return dt <= self.hours * 3600.0 and MIN_FRONT_MS <= dist / dt <= MAX_FRONT_MS
+        limit = self.hours * 3600.0 if within_s is None else within_s
+        return dt <= limit and MIN_FRONT_MS <= dist / dt <= MAX_FRONT_MS
 
     def check(self, ev: PassageEvent) -> PassageEvent | None:
         """The event as the network reports it (a breeze front may become a wind shift), or None
@@ -139,7 +149,10 @@ class Corroborator:
         # A clear inland call after a weak one nearer the water that the network could not confirm
         # then (the first station to see the front showed it weakly: a stuck vane, a light turn),
         # at a time a density current could have taken to come this far: the two agree on a front.
-        if coastal or recent or self._travelled(ev, self.last_weak):
+        # Likewise after a front nearer the water earlier the same breeze day, when the stations are
+        # so far apart that it took longer than `hours` to come this far at a density current's pace.
+        if coastal or recent or self._travelled(ev, self.last_weak) or \
+                self._travelled(ev, within_s=max(self.day_s, self.hours * 3600.0)):
             return ev
         return _demoted(ev, "breeze-like change inland with no breeze front seen nearer the coast")
 

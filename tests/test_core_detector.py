@@ -162,6 +162,16 @@ def _two_stations():
                                        {"id": "B", "lat": 40.12590, "lon": 0.0, "onshore_from_deg": 180.0}]})
 
 
+def _shore_pair():
+    # As _two_stations, with a second station A2 at the shore 8.5 km east of A (0.1 deg of
+    # longitude at 40 N): A is then not the network's only coastal station, and its weak call
+    # needs another station's front (_two_stations' A is: see test_the_only_station_at_the_shore_*).
+    return parse_network({"network": {"name": "trio", "utc_offset_hours": 0},
+                          "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0},
+                                       {"id": "A2", "lat": 40.0, "lon": 0.1, "onshore_from_deg": 180.0},
+                                       {"id": "B", "lat": 40.12590, "lon": 0.0, "onshore_from_deg": 180.0}]})
+
+
 def _front(station, onset, weak):
     # weak: no wind after (an air-only call); strong: 3 m/s from the onshore bearing after a turn
     return PassageEvent(station=station, kind="breeze_front", onset=onset, detected_at=onset + 300,
@@ -188,13 +198,13 @@ def test_weak_inland_call_needs_a_front_travelling_from_the_water(minutes, kept)
 
 
 def test_unconfirmed_weak_call_marks_nothing_seen():
-    cor = Corroborator(_two_stations())
+    cor = Corroborator(_shore_pair())
     t0 = 1767268800.0
     assert cor.check(_front("A", t0, weak=True)).kind == "wind_shift"  # nobody else saw one
     # A's demoted weak call does not vouch for B's strong one 5 minutes later (14 km in 5 min is
     # 47 m/s, no density current), nor for B's weak one at any time.
     assert cor.check(_front("B", t0 + 300, weak=False)).kind == "wind_shift"
-    cor = Corroborator(_two_stations())
+    cor = Corroborator(_shore_pair())
     cor.check(_front("A", t0, weak=True))
     assert cor.check(_front("B", t0 + 1800, weak=True)).kind == "wind_shift"
 
@@ -208,7 +218,7 @@ def test_clear_inland_call_after_a_weak_one_nearer_the_water(minutes, kept):
     # The first station to see a front may show it only weakly (a stuck vane); the clear call
     # inland that follows at a density current's pace confirms the front (not the weak call,
     # which has been reported as a wind shift already).
-    cor = Corroborator(_two_stations())
+    cor = Corroborator(_shore_pair())
     t0 = 1767268800.0
     assert cor.check(_front("A", t0, weak=True)).kind == "wind_shift"
     out = cor.check(_front("B", t0 + minutes * 60.0, weak=False))
@@ -651,5 +661,19 @@ def test_a_lone_station_weak_call_stands_in_the_network_step():
     cor = Corroborator(parse_network({"network": {"name": "one", "utc_offset_hours": 0},
                                       "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0}]}))
     assert cor.check(_front("A", 1767268800.0, weak=True)).kind == "breeze_front"
-    # two stations: the same weak call with nobody else's front is not confirmed
-    assert Corroborator(_two_stations()).check(_front("A", 1767268800.0, weak=True)).kind == "wind_shift"
+    # two stations at the shore: the same weak call with nobody else's front is not confirmed
+    assert Corroborator(_shore_pair()).check(_front("A", 1767268800.0, weak=True)).kind == "wind_shift"
+
+
+def test_the_only_station_at_the_shore_makes_weak_calls_as_a_lone_station_does():
+    """A front forms at the shore, so at the network's only coastal station no other can have seen
+    it first: its detector makes a weak call only once it has persisted through the whole decision
+    window (as a lone station's), and the network lets that call stand."""
+    cor = Corroborator(_two_stations())
+    assert cor.unconfirmable == {"A"}
+    assert cor.check(_front("A", 1767268800.0, weak=True)).kind == "breeze_front"
+    assert Corroborator(_shore_pair()).unconfirmable == set()
+    eng = Engine(_two_stations())
+    assert eng.detectors["A"].alone and not eng.detectors["B"].alone
+    eng = Engine(_shore_pair())
+    assert not any(d.alone for d in eng.detectors.values())

@@ -71,11 +71,7 @@ class Engine:
         self.qc: dict[str, StationQC] = {}
         self.corroborate = Corroborator(config)
         for st in config.stations:
-            det = prototype.clone(st)
-            # The network's only station at the shore: no other can confirm its weak call first
-            # (see Corroborator.unconfirmable), so it makes one only as a lone station does.
-            det.alone = det.alone or st.id in self.corroborate.unconfirmable
-            self.detectors[st.id] = det
+            self.detectors[st.id] = prototype.clone(st)
             self.qc[st.id] = StationQC(config.qc, st.id)
         self.watch = _make_watch(config)
         self._pairs = {k: (self.qc[k], self.detectors[k]) for k in self.detectors}  # one lookup per record

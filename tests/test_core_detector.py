@@ -665,15 +665,21 @@ def test_a_lone_station_weak_call_stands_in_the_network_step():
     assert Corroborator(_shore_pair()).check(_front("A", 1767268800.0, weak=True)).kind == "wind_shift"
 
 
-def test_the_only_station_at_the_shore_makes_weak_calls_as_a_lone_station_does():
-    """A front forms at the shore, so at the network's only coastal station no other can have seen
-    it first: its detector makes a weak call only once it has persisted through the whole decision
-    window (as a lone station's), and the network lets that call stand."""
+def test_the_only_station_at_the_shore_cannot_have_its_weak_call_confirmed():
+    """A front forms at the shore, so at the network's only coastal station no other station can
+    have seen it first: another station's call before its weak one is a look-alike, and does not
+    confirm it. The demoted call still tells the network a front may have started (a clear call
+    inland after it, at a density current's pace, stands)."""
     cor = Corroborator(_two_stations())
     assert cor.unconfirmable == {"A"}
-    assert cor.check(_front("A", 1767268800.0, weak=True)).kind == "breeze_front"
-    assert Corroborator(_shore_pair()).unconfirmable == set()
-    eng = Engine(_two_stations())
-    assert eng.detectors["A"].alone and not eng.detectors["B"].alone
-    eng = Engine(_shore_pair())
-    assert not any(d.alone for d in eng.detectors.values())
+    t0 = 1767268800.0
+    assert cor.check(_strong("B", t0 - 3600)).kind == "wind_shift"  # inland, nothing seen nearer the coast
+    out = cor.check(_front("A", t0, weak=True))  # B's call an hour before does not vouch for it
+    assert out.kind == "wind_shift" and out.note and "weak" in out.note
+    assert cor.check(_strong("B", t0 + 14000 / 2.0)).kind == "breeze_front"  # 2 m/s from A's weak call
+    # With a second station at the shore, the same sequence confirms A's weak call (B's call is
+    # 'recent'; the other shore station could have seen the front first).
+    cor = Corroborator(_shore_pair())
+    assert cor.unconfirmable == set()
+    cor.check(_strong("B", t0 - 3600))
+    assert cor.check(_front("A", t0, weak=True)).kind == "breeze_front"

@@ -20,9 +20,11 @@ shore came before it, at a time a density current could have taken to come this 
 between MIN_FRONT_MS and MAX_FRONT_MS). At the shore: any other station's front within `hours`.
 An unconfirmed weak call marks nothing as seen. In a single-station network the detector makes a
 weak call only once it has persisted through its whole decision window, on a wind turned out of
-the offshore half (classify.py), and it stands: there is no one to ask. The same holds for the
-network's only station at the shore (`unconfirmable`): a front forms there first, so no other
-station can have seen it before.
+the offshore half (classify.py), and it stands: there is no one to ask. At the network's only
+station at the shore (`unconfirmable`) a weak call is never confirmed: a front forms there first,
+so another station's call before it can only be a look-alike. It is reported as a wind shift and,
+like any unconfirmed weak call, lets a clear inland call that follows at a density current's pace
+stand.
 
 A station's detector marks a breeze front found within repeat_min of its previous one (and not much
 stronger) as a `repeat`. When the station's last breeze front that the network let stand is that
@@ -97,9 +99,8 @@ class Corroborator:
             self.seaward[s.id] = [(k, d) for k, d in seaward if d > COAST_MARGIN_KM * 1000.0]
             self.coastal[s.id] = not self.seaward[s.id]
         # A coastal station with no other at the shore: a front forms there first, so no other
-        # station can have seen it before this one's weak call. Its detector makes a weak call only
-        # once it has persisted through the whole decision window, as a lone station's does, and it
-        # stands (the Engine sets that up).
+        # station can have seen it before this one's weak call (another's call before it is a
+        # look-alike, and confirms nothing).
         shore = [k for k, c in self.coastal.items() if c]
         self.unconfirmable = set(shore) if len(shore) == 1 and len(sts) > 1 else set()
         self.last_seen: dict[str, float] = {}  # station -> onset of its last breeze-like call
@@ -148,7 +149,7 @@ class Corroborator:
             # A weak call inland must fit a front travelling from the water; at the shore (no station
             # nearer the water) it needs another station's front within the hours, like a strong
             # inland call. Unconfirmed, it marks nothing as seen.
-            if self.alone or ev.station in self.unconfirmable or (recent if coastal else self._travelled(ev)):
+            if self.alone or (ev.station not in self.unconfirmable and (recent if coastal else self._travelled(ev))):
                 self.last_seen[ev.station] = ev.onset
                 return ev
             self.last_weak[ev.station] = ev.onset

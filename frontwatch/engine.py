@@ -69,12 +69,12 @@ class Engine:
                                     alone=len(config.stations) == 1, emit_repeats=True)
         self.detectors: dict[str, StationDetector] = {}
         self.qc: dict[str, StationQC] = {}
-        self.corroborate = Corroborator(config)
         for st in config.stations:
             self.detectors[st.id] = prototype.clone(st)
             self.qc[st.id] = StationQC(config.qc, st.id)
         self.watch = _make_watch(config)
         self._pairs = {k: (self.qc[k], self.detectors[k]) for k in self.detectors}  # one lookup per record
+        self.corroborate = Corroborator(config)
         # frontwatch.batch's constants, made once: each station's scan parameters, and each group of
         # stations' parameters and onshore sines/cosines stacked (a gateway's chunks repeat a group)
         self._scan_params: dict[str, Any] = {}

@@ -148,7 +148,8 @@ class Corroborator:
         if ev.station in self.onshore and is_weak(ev, *self.onshore[ev.station], coastal):
             # A weak call inland must fit a front travelling from the water; at the shore (no station
             # nearer the water) it needs another station's front within the hours, like a strong
-            # inland call. Unconfirmed, it marks nothing as seen.
+            # inland call, unless it is the network's only shore station (nothing can come before
+            # it there but a look-alike). Unconfirmed, it marks nothing as seen.
             if self.alone or (ev.station not in self.unconfirmable and (recent if coastal else self._travelled(ev))):
                 self.last_seen[ev.station] = ev.onset
                 return ev

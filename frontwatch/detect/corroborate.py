@@ -77,8 +77,9 @@ class Corroborator:
         self.hours = config.detector.corroborate_hours
         # A front and its passages inland belong to one breeze day: from the front's forming to its
         # passage far inland takes up to the whole daytime window (a 40 km trip at 1-2 m/s is 6-11
-        # hours), longer than `hours` between two stations far apart.
-        self.day_s = max(0.0, config.detector.day_end_h - config.detector.day_start_h) * 3600.0
+        # hours), longer than `hours` between two stations far apart (and never less than `hours`).
+        day = config.detector.day_end_h - config.detector.day_start_h
+        self.same_day_s = max(day, self.hours) * 3600.0
         sts = config.stations
         # a lone station's detector makes a weak call only once it has persisted through the whole
         # decision window (classify.py): no other station could confirm it, and it stands
@@ -162,7 +163,7 @@ class Corroborator:
         # Likewise after a front nearer the water earlier the same breeze day, when the stations are
         # so far apart that it took longer than `hours` to come this far at a density current's pace.
         if coastal or recent or self._travelled(ev, self.last_weak) or \
-                self._travelled(ev, within_s=max(self.day_s, self.hours * 3600.0)):
+                self._travelled(ev, within_s=self.same_day_s):
             return ev
         return _demoted(ev, "breeze-like change inland with no breeze front seen nearer the coast")
 

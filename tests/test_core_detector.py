@@ -154,22 +154,25 @@ def test_halted_offshore_wind_is_weak_and_slackening_is_not():
     assert classify(slack, s, 70.0, can_wait=False).kind != "breeze_front"
 
 
+def _network(name, *stations):
+    """A network of stations (id, lat, lon) on a shore with the sea to the south (onshore wind from
+    180 deg), local time UTC."""
+    return parse_network({"network": {"name": name, "utc_offset_hours": 0},
+                          "stations": [{"id": k, "lat": lat, "lon": lon, "onshore_from_deg": 180.0}
+                                       for k, lat, lon in stations]})
+
+
 def _two_stations():
     # B lies 14 km inland (north) of A; the sea is to the south (onshore wind from 180 deg).
     # 14 km = 0.12590 deg of latitude (1 deg = 111.195 km on the mean-radius sphere).
-    return parse_network({"network": {"name": "pair", "utc_offset_hours": 0},
-                          "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0},
-                                       {"id": "B", "lat": 40.12590, "lon": 0.0, "onshore_from_deg": 180.0}]})
+    return _network("pair", ("A", 40.0, 0.0), ("B", 40.12590, 0.0))
 
 
 def _shore_pair():
     # As _two_stations, with a second station A2 at the shore 8.5 km east of A (0.1 deg of
     # longitude at 40 N): A is then not the network's only coastal station, and its weak call
     # needs another station's front (_two_stations' A is: see test_the_only_station_at_the_shore_*).
-    return parse_network({"network": {"name": "trio", "utc_offset_hours": 0},
-                          "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0},
-                                       {"id": "A2", "lat": 40.0, "lon": 0.1, "onshore_from_deg": 180.0},
-                                       {"id": "B", "lat": 40.12590, "lon": 0.0, "onshore_from_deg": 180.0}]})
+    return _network("trio", ("A", 40.0, 0.0), ("A2", 40.0, 0.1), ("B", 40.12590, 0.0))
 
 
 def _front(station, onset, weak):
@@ -227,9 +230,7 @@ def test_clear_inland_call_after_a_weak_one_nearer_the_water(minutes, kept):
 
 def _far_pair():
     # B lies 38 km inland (north) of A: 38 km = 0.34174 deg of latitude (1 deg = 111.195 km).
-    return parse_network({"network": {"name": "far-pair", "utc_offset_hours": 0},
-                          "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0},
-                                       {"id": "B", "lat": 40.34174, "lon": 0.0, "onshore_from_deg": 180.0}]})
+    return _network("far-pair", ("A", 40.0, 0.0), ("B", 40.34174, 0.0))
 
 
 @pytest.mark.parametrize(("hours", "kept"), [
@@ -437,8 +438,7 @@ def test_event_reports_the_wind_from_before_a_turn_that_led_the_air():
     from frontwatch.detect.station import StationDetector
     from frontwatch.obs import Observation
 
-    cfg = parse_network({"network": {"name": "one", "utc_offset_hours": 0},
-                         "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0}]})
+    cfg = _network("one", ("A", 40.0, 0.0))
     det = StationDetector(cfg.detector, tz=cfg.tz, station=cfg.stations[0], alone=True)
     rng = np.random.default_rng(5)
     t0 = 1815436800.0  # 2027-07-13T00:00Z (utc_offset 0: local midnight)
@@ -658,8 +658,7 @@ def test_a_breeze_front_soon_after_a_cold_front_is_called(gap_min):
 def test_a_lone_station_weak_call_stands_in_the_network_step():
     """A one-station network's detector makes a weak call only once it has persisted through the
     whole decision window; the network step has no one to ask and lets it stand."""
-    cor = Corroborator(parse_network({"network": {"name": "one", "utc_offset_hours": 0},
-                                      "stations": [{"id": "A", "lat": 40.0, "lon": 0.0, "onshore_from_deg": 180.0}]}))
+    cor = Corroborator(_network("one", ("A", 40.0, 0.0)))
     assert cor.check(_front("A", 1767268800.0, weak=True)).kind == "breeze_front"
     # two stations at the shore: the same weak call with nobody else's front is not confirmed
     assert Corroborator(_shore_pair()).check(_front("A", 1767268800.0, weak=True)).kind == "wind_shift"

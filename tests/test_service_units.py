@@ -163,8 +163,8 @@ def test_store_outbox_marks_published(tmp_path: Path) -> None:
     assert s.unpublished() == [] and s.unsent == 0
     s.commit_batch([], [("k2", "p/events/A", {"id": "k2"}, False, 3.0)])
     s.close()
-    assert Store(tmp_path / "o.sqlite").unsent == 1  # reopened: counted from the file
     s = Store(tmp_path / "o.sqlite")
+    assert s.unsent == 1  # reopened: counted from the file
     s.save_snapshot({"version": 1}, {})
     assert s.latest_snapshot() == (1, {"version": 1})
     assert list(s.journal_after(0)) == []  # the snapshot covers it: trimmed

@@ -285,8 +285,9 @@ def report(a: argparse.Namespace, mode: str) -> None:
     allr = []
     print("seed fronts tracked | speed err (vs mean, vs now) | heading err | ETA |err| med, n | "
           "first lead min | never-reached alerts | flaps max-changes | rec/s")
+    plan = tuple(a.plan.split(",")) if a.plan else None
     for s in a.seeds:
-        r = run_seed(s, a.days, a.stations, mode, tuple(a.plan.split(",")) if a.plan else None)
+        r = run_seed(s, a.days, a.stations, mode, plan)
         allr.append(r)
         se = ", ".join(f"{x:+.0%}/{y:+.0%}" for x, y in r["speed_err"])
         hs = ", ".join(f"{x:+.0f}" for x in r["head_err"])

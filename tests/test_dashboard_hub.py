@@ -127,3 +127,22 @@ def test_shoreline_geojson_and_text(tmp_path) -> None:  # type: ignore[no-untype
         load_shoreline(bad)
     with pytest.raises(ConfigError, match="cannot read"):
         load_shoreline(tmp_path / "missing.txt")
+
+
+def test_wait_returns_at_once_for_what_came_before_it_was_registered() -> None:
+    # A stream checks for items and for close(), then awaits the client's disconnect state, then
+    # waits: whatever happened during that await must not be waited out (it made a close() hang
+    # for the whole 5 s keepalive interval).
+    import asyncio
+
+    async def timed(hub: DashboardHub, after: int | None) -> float:
+        t0 = time.perf_counter()
+        await hub.wait(0.5, after=after)
+        return time.perf_counter() - t0
+
+    hub = DashboardHub(network(2))
+    hub.observe(observation(hub.config, "GS001", T0))
+    assert asyncio.run(timed(hub, after=0)) < 0.1  # an item past the stream's cursor
+    assert asyncio.run(timed(hub, after=hub.seq)) >= 0.45  # nothing new: the full wait
+    hub.close()
+    assert asyncio.run(timed(hub, after=hub.seq)) < 0.1  # closed meanwhile

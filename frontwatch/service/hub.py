@@ -319,11 +319,19 @@ class DashboardHub:
             stop = None if limit is None else start + limit
             return list(islice(self.feed, start, stop))
 
-    async def wait(self, timeout: float) -> None:
+    async def wait(self, timeout: float, after: int | None = None) -> None:
+        """Wait up to `timeout` s for new items or close(). With `after` (the seq a stream has
+        sent), return at once if items past it came or the hub closed before the waiter was
+        registered: the caller awaited something else between its own check and this call."""
         ev = asyncio.Event()
         key = (asyncio.get_running_loop(), ev)
         with self._lock:
             self._waiters.add(key)
+            missed = after is not None and (self.closed or self.seq > after)
+        if missed:
+            with self._lock:
+                self._waiters.discard(key)
+            return
         try:
             await asyncio.wait_for(ev.wait(), timeout)
         except TimeoutError:

@@ -109,7 +109,9 @@ def make_app(hub: DashboardHub, registry: CollectorRegistry, token: str | None =
                         continue
                     if hub.closed or await request.is_disconnected():
                         return  # closed: what was sent before close() has gone out first
-                    await hub.wait(5.0)
+                    # `after`: a close() or an item that came while is_disconnected() awaited
+                    # would otherwise wait out the whole timeout
+                    await hub.wait(5.0, after=cursor)
                     if not hub.since(cursor, 1):
                         yield ": keepalive\n\n"
             finally:

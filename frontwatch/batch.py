@@ -35,6 +35,7 @@ from . import scan as scanmod
 from .detect.station import StationDetector
 from .engine import MAX_UNKNOWN, Engine, Output
 from .events import PassageEvent
+from .network.watch import DROP_WINDOW_S
 from .obs import Observation
 
 _FIELDS = ("wind_dir_deg", "wind_speed_ms", "wind_gust_ms", "temp_c", "dewpoint_c", "pressure_hpa", "rain_mm")
@@ -295,6 +296,32 @@ def _detect(det: StationDetector, rows: np.ndarray, opened: np.ndarray, reset: n
     return out
 
 
+def _in_drop_windows(ut: np.ndarray, ucode: np.ndarray, id_list: list[str],
+                     windows: list[tuple[str, float]]) -> np.ndarray:
+    """Mask of the used records (times `ut`, station codes `ucode`) that fall in a passage's
+    drop window (DROP_WINDOW_S after its onset) at its station; `windows` = [(station, onset)]."""
+    mask = np.zeros(len(ut), dtype=bool)
+    if not windows:
+        return mask
+    code_of = {sid: c for c, sid in enumerate(id_list)}
+    by_code: dict[int, list[float]] = {}
+    for st, onset in windows:
+        c = code_of.get(st)
+        if c is not None:
+            by_code.setdefault(c, []).append(onset)
+    order = np.argsort(ucode, kind="stable")
+    bounds = np.searchsorted(ucode[order], np.arange(len(id_list) + 1))
+    lo_s, hi_s = DROP_WINDOW_S
+    for c, onsets in by_code.items():
+        pos = order[bounds[c]:bounds[c + 1]]
+        tt = ut[pos]
+        hit = np.zeros(len(pos), dtype=bool)
+        for onset in onsets:
+            hit |= (tt >= onset + lo_s) & (tt < onset + hi_s)
+        mask[pos[hit]] = True
+    return mask
+
+
 def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray, ids: np.ndarray,
              times: np.ndarray, used: np.ndarray, cols: dict[str, np.ndarray],
              clean: dict[str, np.ndarray]) -> list[tuple[int, Output]]:
@@ -306,7 +333,7 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     upos = np.flatnonzero(used)
     ut = times[upos]
     ucode = codes[upos]
-    ust = ids[ucode]
+    ust = ids.astype(object)[ucode]  # object: tolist() hands out the ids, not new strings
     # Records the watch must see: its own stations', those whose data minute passes the largest
     # one before them (a superset of the watch's minute ticks: the loop checks its clock too), the
     # events'.
@@ -317,8 +344,11 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
 
     watched = of_stations(watch._watched)
     # ... and those of stations whose passage's temperature drop the watch measures (SiteWatch.
-    # refining): already, or after a breeze front of this chunk (a superset: the loop asks the watch)
-    refining = of_stations({*watch.refining, *(e.station for _, e in raw if e.kind == "breeze_front")})
+    # refining), inside the drop window of that passage: one already being measured, or a breeze
+    # front of this chunk (a superset: the loop asks the watch; refine_temp takes nothing outside)
+    refining = _in_drop_windows(ut, ucode, id_list,
+                                [(st, r.onset) for st, r in watch.refining.items()]
+                                + [(e.station, e.onset) for _, e in raw if e.kind == "breeze_front"])
     minute = np.floor_divide(ut, 60.0)
     new_minute = np.ones(len(ut), dtype=bool)
     if len(ut) > 1:

@@ -328,7 +328,13 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     """Corroboration and the site watch over the events in stream order (Engine.feed's tail)."""
     watch = eng.watch
     if watch is None:
-        return [(g, x) for g, e in raw if (x := eng.network_event(e)) is not None]
+        got: list[tuple[int, Output]] = []
+        for g, e in raw:
+            x = eng.network_event(e)
+            if x is not None:
+                got.extend((g, y) for y in eng.late_events())
+                got.append((g, x))
+        return got
     out: list[tuple[int, Output]] = []
     upos = np.flatnonzero(used)
     ut = times[upos]
@@ -348,6 +354,7 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     # front of this chunk (a superset: the loop asks the watch; refine_temp takes nothing outside)
     refining = _in_drop_windows(ut, ucode, id_list,
                                 [(st, r.onset) for st, r in watch.refining.items()]
+                                + [(st, e.onset) for st, e in eng.corroborate.pending_weak.items()]
                                 + [(e.station, e.onset) for _, e in raw if e.kind == "breeze_front"])
     minute = np.floor_divide(ut, 60.0)
     new_minute = np.ones(len(ut), dtype=bool)
@@ -395,10 +402,15 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
         if synced < ci:
             last_seen.update(zip(ust_l[synced:ci], ut_l[synced:ci], strict=True))
         synced = ci + 1
+        late: list[PassageEvent] = []
         if ev is not None:
             ev = eng.network_event(ev)
             if ev is not None:
+                late = eng.late_events()
+                out.extend((g, x) for x in late)
                 out.append((g, ev))
+        for x in late:
+            out.extend((g, y) for y in watch.passage(x, t))
         o = Observation(st_c[k], t, wd_c[k], ws_c[k], gu_c[k], tc_c[k], td_c[k], p_c[k], rain_c[k])
         produced = watch.observe(o, ev)
         next_tick = watch._next_tick

@@ -106,8 +106,11 @@ class Engine:
         ev = self.network_event(ev)
         if ev is None:
             return [] if watch is None else watch.observe(clean, None)
-        out: list[Output] = [ev]
+        late = self.late_events()
+        out: list[Output] = [*late, ev]
         if watch is not None:
+            for x in late:
+                out.extend(watch.passage(x, obs.time))
             out.extend(watch.observe(clean, ev))
         return out
 
@@ -119,6 +122,17 @@ class Engine:
         if got is not None:
             self.stats.events[got.kind] += 1
         return got
+
+    def late_events(self) -> list[PassageEvent]:
+        """Weak calls that the last network_event() confirmed after the fact (corroborate.py,
+        _confirm_late), counted: they are reported before that event, in onset order."""
+        late = self.corroborate.late
+        if not late:
+            return []
+        self.corroborate.late = []
+        for x in late:
+            self.stats.events[x.kind] += 1
+        return late
 
     def feed_many(self, records: Sequence[Observation]) -> list[Output]:
         """feed() over `records` in their order, in one call: the same outputs in the same order,

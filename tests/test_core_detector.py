@@ -219,13 +219,46 @@ def test_unconfirmed_weak_call_marks_nothing_seen():
 ])
 def test_clear_inland_call_after_a_weak_one_nearer_the_water(minutes, kept):
     # The first station to see a front may show it only weakly (a stuck vane); the clear call
-    # inland that follows at a density current's pace confirms the front (not the weak call,
-    # which has been reported as a wind shift already).
+    # inland that follows at a density current's pace confirms the front (and the weak call,
+    # reported as a wind shift then, is reported again as a breeze front: see the next test).
     cor = Corroborator(_shore_pair())
     t0 = 1767268800.0
     assert cor.check(_front("A", t0, weak=True)).kind == "wind_shift"
     out = cor.check(_front("B", t0 + minutes * 60.0, weak=False))
     assert (out.kind == "breeze_front") == kept, out.note
+
+
+def test_a_weak_first_sighting_is_confirmed_by_the_front_inland_after_it():
+    # A weak call at the shore with nobody else to confirm it yet is reported as a wind shift; the
+    # front standing 14 km inland 2 h later (1.9 m/s from it: a density current's pace) shows it
+    # was the front's passage, and it is reported again, as a breeze front decided then.
+    t0 = 1767268800.0 + 11 * 3600  # 11:00 local
+    for net in (_two_stations(), _shore_pair()):  # A the only station at the shore, or not
+        first = Corroborator(net)
+        weak = _front("A", t0, weak=True)
+        assert first.check(weak).kind == "wind_shift" and not first.late
+        cor = Corroborator(net)  # the rest through a snapshot, as after a restart
+        cor.restore(json.loads(json.dumps(first.snapshot())))
+        b = _front("B", t0 + 14000 / 1.9, weak=False)
+        assert cor.check(b).kind == "breeze_front"
+        assert [(e.station, e.kind, e.onset, e.detected_at) for e in cor.late] == \
+            [("A", "breeze_front", t0, b.detected_at)]
+        assert cor.late[0].note and "confirmed later by the front at B" in cor.late[0].note
+        assert cor.late[0].temp_change_c == weak.temp_change_c  # the weak call's own measurements
+        cor.late.clear()
+        cor.check(_front("B", b.onset + 3 * 3600, weak=False))  # a second front inland: confirmed once
+        assert not cor.late
+    # Not when B's call came too soon for a front from A (14 km in 10 min: 23 m/s) ...
+    cor = Corroborator(_two_stations())
+    cor.check(_front("A", t0, weak=True))
+    cor.check(_front("B", t0 + 600, weak=False))
+    assert not cor.late
+    # ... nor when A had its own front earlier that day (a wobble behind the front, not a passage)
+    cor = Corroborator(_shore_pair())
+    cor.check(_front("A", t0 - 2 * 3600, weak=False))
+    cor.check(_front("A", t0, weak=True))
+    assert cor.check(_front("B", t0 + 14000 / 1.9, weak=False)).kind == "breeze_front"
+    assert not cor.late
 
 
 def _far_pair():

@@ -32,14 +32,17 @@ recent, the repeat is the same regime going on (a wobble of the onshore wind) an
 the call before was one the network did not confirm (a look-alike inland ahead of the day's front),
 the repeat is checked as a passage of its own. A clear inland call with no front seen stands too
 when a station nearer the water made a weak call the network could not confirm, before it and at a
-density current's pace (the first station to see a front may show it only weakly). Pure and
-deterministic; state is three times per station.
+density current's pace (the first station to see a front may show it only weakly). That weak
+call is then reported again, as a breeze front decided when the front stood inland (the events
+are never retracted, so the wind shift stays; the breeze front's id differs by kind), unless
+its station had a front of its own that day. Pure and deterministic; state is four items per
+station (three times and the last unconfirmed weak call).
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import replace
+from dataclasses import fields, replace
 from typing import Any
 
 from ..calc.density import BREEZE_FRONT_SPEEDS_MS
@@ -108,6 +111,11 @@ class Corroborator:
         self.repeat_s = config.detector.repeat_min * 60.0
         self.last_front: dict[str, float] = {}  # station -> onset of its last breeze front let stand
         self.last_weak: dict[str, float] = {}  # station -> onset of its last weak call not confirmed
+        # station -> its last weak call not confirmed (as the detector made it), while a front
+        # further inland may still confirm it (see _confirm_late); bounded: one per station
+        self.pending_weak: dict[str, PassageEvent] = {}
+        # weak calls confirmed by the last check() (drained by the engine, which reports them first)
+        self.late: list[PassageEvent] = []
 
     def _travelled(self, ev: PassageEvent, seen_at: dict[str, float] | None = None,
                    within_s: float | None = None) -> bool:
@@ -138,7 +146,36 @@ class Corroborator:
         got = self._check(ev)
         if got.kind == "breeze_front":
             self.last_front[ev.station] = ev.onset
+            self.pending_weak.pop(ev.station, None)  # its own front came: nothing left to confirm
+            self._confirm_late(got)
         return got
+
+    def _confirm_late(self, ev: PassageEvent) -> None:
+        """Weak calls nearer the water that a front standing at ev's station now confirms.
+
+        The first station to see a front may show it only weakly (a stuck vane, a light turn, marine
+        air under an onshore wind), when no other station has seen the front yet: it was reported as
+        a wind shift. When the front then stands further inland on the same shore, at a time a
+        density current could have taken from there (MIN_FRONT_MS to MAX_FRONT_MS, within `hours`),
+        and that station has had no front of its own that day, its weak call was the front's passage:
+        it is reported again, as a breeze front decided now (detected_at is this event's, the note
+        says so; its id differs from the wind shift's by kind). Each weak call is confirmed once."""
+        for k, dist in self.seaward.get(ev.station, []):
+            weak = self.pending_weak.get(k)
+            if weak is None or weak.onset >= ev.onset:
+                continue
+            dt = ev.onset - weak.onset
+            if dt > self.hours * 3600.0 or not MIN_FRONT_MS <= dist / dt <= MAX_FRONT_MS:
+                continue
+            before = self.last_front.get(k)
+            if before is not None and 0 <= weak.onset - before <= self.same_day_s:
+                continue  # the day's front had already passed there: a wobble behind it
+            del self.pending_weak[k]
+            self.last_front[k] = weak.onset
+            self.last_seen[k] = max(self.last_seen.get(k, weak.onset), weak.onset)
+            note = f"weak breeze-front signature confirmed later by the front at {ev.station}"
+            self.late.append(replace(weak, detected_at=max(weak.detected_at, ev.detected_at), note=note))
+        self.late.sort(key=lambda e: (e.onset, e.station))
 
     def _check(self, ev: PassageEvent) -> PassageEvent:
         if self.hours <= 0:
@@ -155,6 +192,7 @@ class Corroborator:
                 self.last_seen[ev.station] = ev.onset
                 return ev
             self.last_weak[ev.station] = ev.onset
+            self.pending_weak[ev.station] = ev
             return _demoted(ev, "weak breeze-like change with no front seen nearer the coast in time to reach it")
         self.last_seen[ev.station] = ev.onset
         # A clear inland call after a weak one nearer the water that the network could not confirm
@@ -169,13 +207,17 @@ class Corroborator:
 
     def snapshot(self) -> dict[str, Any]:
         return {"last_seen": dict(self.last_seen), "last_front": dict(self.last_front),
-                "last_weak": dict(self.last_weak)}
+                "last_weak": dict(self.last_weak),
+                "pending_weak": {k: [getattr(e, f.name) for f in fields(PassageEvent)]
+                                 for k, e in self.pending_weak.items()}}
 
     def restore(self, snap: dict[str, Any]) -> None:
         self.last_seen = {k: float(v) for k, v in snap["last_seen"].items()}
         # (a snapshot from before repeats were the network's: none let stand, as after a restart)
         self.last_front = {k: float(v) for k, v in snap.get("last_front", {}).items()}
         self.last_weak = {k: float(v) for k, v in snap.get("last_weak", {}).items()}
+        self.pending_weak = {k: PassageEvent(*v) for k, v in snap.get("pending_weak", {}).items()}
+        self.late = []
 
 
 def _demoted(ev: PassageEvent, note: str) -> PassageEvent:

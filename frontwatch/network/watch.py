@@ -160,6 +160,12 @@ class SiteWatch:
             out.extend(self._tick(t))
         return out
 
+    def passage(self, ev: PassageEvent, now: float) -> list[Output]:
+        """A breeze front reported with no record of its own (a weak call the network confirmed
+        after the fact, at data time `now`): taken as observe() takes an event, before the record's
+        own observe()."""
+        return self._on_passage(ev, now) if ev.kind == "breeze_front" else []
+
     def _watch_obs(self, obs: Observation, mons: list[CourseMonitor]) -> None:
         self.watch_wind(obs.station, obs.time, obs.wind_dir_deg, obs.wind_speed_ms, mons)
 

@@ -138,6 +138,18 @@ class InputSettings(_Strict):
     columns: dict[str, str] = Field(default_factory=dict)
     naive_utc_offset_hours: float | None = Field(None, ge=-14, le=14)
     station: str | None = None  # a file with no station column holds this station
+    # CSV field separator; None: the one of ',', ';', tab, '|' the header line uses most (European
+    # archives often write ';' with a decimal comma)
+    delimiter: str | None = Field(None, min_length=1, max_length=1)
+    decimal: str = Field(".", pattern=r"^[.,]$")  # the decimal mark of numbers in CSV files
+
+    @model_validator(mode="after")
+    def _marks_differ(self) -> InputSettings:
+        if self.delimiter is not None and self.delimiter == self.decimal:
+            raise ValueError(f"delimiter and decimal are both {self.decimal!r}")
+        if self.delimiter is None and self.decimal == ",":
+            raise ValueError("decimal = ',' needs an explicit delimiter (e.g. ';')")
+        return self
 
     @field_validator("columns")
     @classmethod

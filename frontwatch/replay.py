@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 
 from .calc.moisture import BOLTON_A, BOLTON_B, BOLTON_C  # the same Bolton (1980) formula, vectorised
-from .config import NetworkConfig
+from .config import InputSettings, NetworkConfig
 from .engine import Engine, Output
 from .errors import InputFileError
 from .events import PassageEvent
@@ -52,7 +52,35 @@ class Decoded:
         return len(self.station)
 
 
-def _read_table(path: Path) -> tuple[pd.DataFrame, int]:
+DELIMITERS = (",", ";", "\t", "|")
+
+
+def _header_line(path: Path) -> str:
+    """The file's first line (decompressed by its suffix as pandas does; '' if unreadable here)."""
+    import bz2
+    import gzip
+    import lzma
+
+    opener = {".gz": gzip.open, ".bz2": bz2.open, ".xz": lzma.open}.get(path.suffix.lower())
+    try:
+        if opener is None and path.suffix.lower() in (".zip", ".zst", ".tar"):
+            return ""
+        with (opener or open)(path, "rt", encoding="utf-8-sig", errors="replace") as fh:  # type: ignore[operator]
+            return str(fh.readline(65536))
+    except OSError:
+        return ""
+
+
+def _delimiter(path: Path, settings: InputSettings | None) -> str:
+    """The configured CSV separator, else the one of DELIMITERS the header line uses most (',' on a tie)."""
+    if settings is not None and settings.delimiter is not None:
+        return settings.delimiter
+    head = _header_line(path)
+    best = max(DELIMITERS, key=lambda d: (head.count(d), d == ","))
+    return best if head.count(best) else ","
+
+
+def _read_table(path: Path, settings: InputSettings | None = None) -> tuple[pd.DataFrame, int]:
     """The raw table and the line number of its first data row (CSV header = line 1)."""
     if not path.exists():
         raise InputFileError(f"{path}: no such file")
@@ -61,7 +89,8 @@ def _read_table(path: Path) -> tuple[pd.DataFrame, int]:
         if suffixes.endswith(".parquet") or suffixes.endswith(".pq"):
             return pd.read_parquet(path), 1
         return pd.read_csv(path, dtype={"station": str, "time": str}, keep_default_na=False,
-                           na_values=[""], low_memory=False), 2
+                           na_values=[""], low_memory=False, sep=_delimiter(path, settings),
+                           decimal=settings.decimal if settings is not None else "."), 2
     except pd.errors.ParserError as exc:
         msg = str(exc).replace("Error tokenizing data. C error: ", "")
         raise InputFileError(f"{path}: malformed table: {msg}") from None
@@ -158,6 +187,9 @@ def decode_frame(df: pd.DataFrame, config: NetworkConfig, src: str, first_line: 
             continue
         canon, conv = su
         raw = df[name]
+        if config.input.decimal == "," and not pd.api.types.is_numeric_dtype(raw):
+            # read as text (the reader's decimal comma did not fit every cell): take both marks
+            raw = raw.where(raw.isna(), raw.astype(str).str.replace(",", ".", regex=False))
         num = pd.to_numeric(raw, errors="coerce").to_numpy(dtype=float)
         wrong = np.isnan(num) & raw.notna().to_numpy()
         refuse(wrong, str(name), "not a number", "wrong_type")
@@ -191,7 +223,7 @@ def decode_frame(df: pd.DataFrame, config: NetworkConfig, src: str, first_line: 
 
 def read_file(path: str | Path, config: NetworkConfig, columns: dict[str, str] | None = None) -> Decoded:
     p = Path(path)
-    df, first_line = _read_table(p)
+    df, first_line = _read_table(p, config.input)
     return decode_frame(df, config, str(p), first_line, columns)
 
 

@@ -71,6 +71,42 @@ def test_units_by_suffix_and_column_mapping(tmp_path):
     assert c["dewpoint_c"][0] == pytest.approx(9.27, abs=0.02)
 
 
+ROWS = ["A,2026-01-14T00:00:00Z,80,3.5,25.25,18.0,1010.5", "A,2026-01-14T00:01:00Z,,0,25.0,,1010"]
+
+
+@pytest.mark.parametrize("sep", [";", "\t", "|"])
+def test_other_field_separators_are_found_from_the_header(tmp_path, sep):
+    # European archives often write ';' (common practice); the header line says which is used
+    text = "".join(line.replace(",", sep) + "\n" for line in [HEADER.strip(), *ROWS])
+    for name, write_to in (("obs.csv", Path.write_text), ("obs.csv.gz", None)):
+        p = tmp_path / name
+        if write_to is None:
+            with gzip.open(p, "wt") as fh:
+                fh.write(text)
+        else:
+            p.write_text(text)
+        d = read_file(p, NET)
+        assert len(d) == 2 and not d.bad
+        assert d.columns["temp_c"].tolist() == [25.25, 25.0]
+        assert d.columns["pressure_hpa"][0] == 1010.5 and math.isnan(d.columns["dewpoint_c"][1])
+
+
+def test_decimal_comma_with_a_configured_separator(tmp_path):
+    p = write(tmp_path, "".join(line.replace(",", ";") + "\n" for line in [HEADER.strip(), *ROWS])
+              .replace("3.5", "3,5").replace("25.25", "25,25").replace("1010.5", "1010,5").replace("18.0", "18,0"))
+    net = parse_network({**NET.model_dump(exclude={"source"}), "input": {"delimiter": ";", "decimal": ","}})
+    d = read_file(p, net)
+    assert d.columns["wind_speed_ms"][0] == 3.5 and d.columns["temp_c"][0] == 25.25
+    assert d.columns["pressure_hpa"][0] == 1010.5 and d.columns["dewpoint_c"][0] == 18.0 and not d.bad
+    assert d.columns["temp_c"][1] == 25.0  # a stray decimal point in the same column is read too
+    # a decimal comma with the separator left to the header would be ambiguous: refused
+    from frontwatch.errors import ConfigError
+    with pytest.raises(ConfigError, match="decimal"):
+        parse_network({**NET.model_dump(exclude={"source"}), "input": {"decimal": ","}})
+    with pytest.raises(ConfigError, match="delimiter and decimal"):
+        parse_network({**NET.model_dump(exclude={"source"}), "input": {"delimiter": ",", "decimal": ","}})
+
+
 def test_multiple_files_merge_in_time_order(tmp_path):
     a = write(tmp_path, HEADER + "A,2026-01-14T00:01:00Z,80,3,25,18,1010\n", "a.csv")
     b = write(tmp_path, HEADER + "B,2026-01-14T00:00:00Z,80,3,25,18,1010\n", "b.csv")

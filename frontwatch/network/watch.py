@@ -161,10 +161,17 @@ class SiteWatch:
         return out
 
     def passage(self, ev: PassageEvent, now: float) -> list[Output]:
-        """A breeze front reported with no record of its own (a weak call the network confirmed
-        after the fact, at data time `now`): taken as observe() takes an event, before the record's
-        own observe()."""
-        return self._on_passage(ev, now) if ev.kind == "breeze_front" else []
+        """A breeze front reported with no record of its own: a weak call the network confirmed
+        after the fact, at data time `now`, just before the confirming event (which observe() then
+        takes). The tracker and the sites' own stations take it; the sites are evaluated with the
+        confirming passage, not before: a front known from this old passage alone would give ETAs
+        already past, an alert that the next passage at once overtakes."""
+        if ev.kind != "breeze_front":
+            return []
+        if ev.station in self._site_stations:
+            self.passages[ev.station] = ev.onset
+        self.tracker.add(ev)
+        return []
 
     def _watch_obs(self, obs: Observation, mons: list[CourseMonitor]) -> None:
         self.watch_wind(obs.station, obs.time, obs.wind_dir_deg, obs.wind_speed_ms, mons)

@@ -95,6 +95,7 @@ class Decision:
     evidence: float = 0.0  # how strong the signature was (comparable within a kind)
     note: str = ""  # for a non-call: which breeze-front conditions failed (near-miss reports, debugging)
     weak_held: bool = False  # waiting: a weak breeze-front call that holds, waiting to persist
+    failed: tuple[str, ...] = ()  # for a non-call: the names of the conditions in `note`, for code to read
 
 
 def _nz(x: float, default: float = 0.0) -> float:
@@ -313,7 +314,7 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     if daytime and thermal and can_wait and wind_moving:
         # The right kind of air but the wind or the evidence is not there yet (a smoothed vane, a
         # turn in progress, a weak change that must persist): look again next minute.
-        return Decision(None, 0.0, True, evidence, note)
+        return Decision(None, 0.0, True, evidence, note, failed=tuple(failed))
 
     # 5. A clear turn of a sustained wind that fits no other kind.
     sustained = sig.speed_before >= 2.5 and sig.speed_after >= 2.5
@@ -328,7 +329,7 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         wind_age = sig.minutes_after - max(0.0, times[2]) if len(times) == 3 and sig.z_onshore >= 2.0 \
             else sig.minutes_after
         if can_wait and (wind_age < WIND_SHIFT_MIN or (daytime and wind_turned)):
-            return Decision(None, 0.0, True, 0.0, note)
+            return Decision(None, 0.0, True, 0.0, note, failed=tuple(failed))
         conf = _logistic((sig.turn_deg - 45.0) / 30.0 + sig.strength / 10.0 - 1.0)
         return Decision("wind_shift", min(0.95, max(0.4, conf)), False)
-    return Decision(None, 0.0, can_wait and sig.minutes_after < 4, 0.0, note)
+    return Decision(None, 0.0, can_wait and sig.minutes_after < 4, 0.0, note, failed=tuple(failed))

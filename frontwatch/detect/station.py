@@ -230,12 +230,12 @@ class StationDetector:
                 self.weak_onset = t_o_real
             elif not held or not dec.wait:
                 self.weak_onset = -1e18
-            # ('confirmable' is the network's part, not the signature's: a station that no other can
-            # confirm first fails it with every weak signature)
-            note = dec.note.replace(", confirmable", "")
-            if self.near_misses is not None and not dec.wait and note.startswith("breeze front? not ") \
-                    and "," not in note and note != "breeze front? not confirmable":
-                self.near_misses.append((self.sid, t_o_real, float(now), note))
+            # A near miss failed exactly one condition. ('confirmable' is the network's part, not
+            # the signature's: a station that no other can confirm first fails it with every weak
+            # signature.)
+            failed = [f for f in dec.failed if f != "confirmable"]
+            if self.near_misses is not None and not dec.wait and len(failed) == 1:
+                self.near_misses.append((self.sid, t_o_real, float(now), "breeze front? not " + failed[0]))
             return None
         self.pending = False
         if (o == gap_after or t_o_real < self.others_quiet_until) and dec.kind != "breeze_front":

@@ -150,3 +150,17 @@ def test_a_front_past_its_eta_is_not_called_imminent() -> None:
     arr = replace(_fc(late + 600, 0), status="arrived", eta=late + 540, eta_earliest=None, eta_latest=None)
     m = a.step(late + 600, arr, last_seen=late + 600)
     assert m is not None and m.state == "arrived"
+
+
+def test_an_update_after_the_eta_says_the_front_is_due_not_expected_earlier() -> None:
+    # An imminent alert is updated (the expected gusts fell below the limit) after its ETA has
+    # passed, with no passage reported yet: "expected about <a time already past>" would read as
+    # stale; the headline says the front is due now and gives the interval.
+    a = SiteAlerts(SITE, station="S30")
+    m1 = a.step(NOW, _fc(NOW, 10, gust=14.0), last_seen=NOW)
+    assert m1 is not None and m1.state == "imminent" and "expected about" in m1.headline
+    later = NOW + 15 * 60  # 5 min past the ETA, still inside its interval
+    fc = replace(_fc(NOW, 10, gust=9.0), issued_at=later)
+    m2 = a.step(later, fc, last_seen=later)
+    assert m2 is not None and m2.state == "imminent" and m2.msg_type == "Update"
+    assert "due now, not yet reported" in m2.headline and "between" in m2.headline

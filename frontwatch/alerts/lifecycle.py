@@ -296,8 +296,11 @@ class SiteAlerts:
         eta = fc.eta if state in (APPROACHING, IMMINENT, ARRIVED_STATE, CLEAR) else None
         if state in (APPROACHING, IMMINENT):
             assert fc.eta is not None and fc.eta_earliest is not None and fc.eta_latest is not None
-            when = (f"expected about {local_hhmm(fc.eta, self.tz)} "
-                    f"(between {local_hhmm(fc.eta_earliest, self.tz)[:5]} and {local_hhmm(fc.eta_latest, self.tz)[:5]})")
+            span = f"between {local_hhmm(fc.eta_earliest, self.tz)[:5]} and {local_hhmm(fc.eta_latest, self.tz)[:5]}"
+            if fc.eta < now:  # the expected time has passed with no passage reported yet
+                when = f"due now, not yet reported (expected about {local_hhmm(fc.eta, self.tz)}, {span})"
+            else:
+                when = f"expected about {local_hhmm(fc.eta, self.tz)} ({span})"
             word = "approaching" if state == APPROACHING else "imminent at"
             headline = f"Sea-breeze front {word} {name}: {when}"
         elif state == ARRIVED_STATE:

@@ -75,6 +75,8 @@ class Engine:
         self.watch = _make_watch(config)
         self._pairs = {k: (self.qc[k], self.detectors[k]) for k in self.detectors}  # one lookup per record
         self.corroborate = Corroborator(config)
+        for k, det in self.detectors.items():
+            det.inland = not self.corroborate.coastal.get(k, True)
         # frontwatch.batch's constants, made once: each station's scan parameters, and each group of
         # stations' parameters and onshore sines/cosines stacked (a gateway's chunks repeat a group)
         self._scan_params: dict[str, Any] = {}

@@ -42,6 +42,9 @@ class PassageEvent:
     # minute). A passage found across a silence of the station has its onset at the gap's middle,
     # give or take half the gap; the tracker does not fit its time (network/track.py).
     onset_spread_s: float = 0.0
+    # Internal too: the classifier found the change's channels apart in time (classify.py,
+    # `untimed`), so the network confirms it as it does any weak call (corroborate.is_weak).
+    untimed: bool = False
 
     def __post_init__(self) -> None:
         if self.kind not in KINDS:

@@ -297,6 +297,37 @@ def test_weak_channel_change_time_gets_a_wider_allowance():
     assert clear_td.kind == "wind_shift"  # a clear turn of a sustained wind, but not one front
 
 
+def test_an_untimed_change_inland_is_a_weak_call_timed_by_its_latest_channel():
+    # The clear moisture rise 9 minutes before the turn and the cooling (above: not one front). At
+    # an inland station (a station nearer the water could have seen the front first), once the
+    # candidate can wait no longer, it is a weak call the network must confirm, timed at the
+    # latest of its significant channels (here the onset itself: the dewpoint came first).
+    s = config().detector
+    turn = dict(dir_before=0.0, dir_after=180.0, speed_before=3.0, speed_after=3.0, spread_after=10.0,
+                turn_deg=180.0, onshore_before=-3.0, onshore_after=3.0, before_offset_deg=180.0,
+                after_offset_deg=0.0, change_offset_deg=0.0, change_speed=6.0, z_onshore=10.0)
+    sig = _sig(z_dewpoint=8.0, change_times_min=(0.0, -9.0, 0.0), **turn)
+    d = classify(sig, s, 70.0, can_wait=False, untimed_ok=True)
+    assert d.kind == "breeze_front" and d.untimed and d.onset_shift_min == 0.0
+    # the wind and the cooling 12 minutes after the moisture rise, which set the onset: timed by them
+    later = classify(_sig(z_dewpoint=8.0, change_times_min=(12.0, 0.0, 12.0), z_temp=-8.0, **turn), s, 70.0,
+                     can_wait=False, untimed_ok=True)
+    assert later.kind == "breeze_front" and later.untimed and later.onset_shift_min == 12.0
+    # not while it may wait (a clear signature may yet form), nor at the shore or a lone station
+    assert classify(sig, s, 70.0, can_wait=True, untimed_ok=True).kind != "breeze_front"
+    assert classify(sig, s, 70.0, can_wait=False, untimed_ok=False).kind == "wind_shift"
+    assert classify(sig, s, 70.0, can_wait=False, weak_ok=False, untimed_ok=True).kind != "breeze_front"
+    # the engine tells each station's detector whether it is inland
+    from frontwatch.engine import Engine
+    assert {k: d.inland for k, d in Engine(_two_stations()).detectors.items()} == {"A": False, "B": True}
+    # the network treats it as any weak call: inland it needs a front nearer the water before it
+    cor = Corroborator(_two_stations())
+    ev = replace(_front("B", 1767268800.0, weak=False), untimed=True)
+    assert cor.check(ev).kind == "wind_shift"
+    cor.check(_front("A", 1767268800.0 - 7200, weak=False))
+    assert cor.check(replace(ev, onset=ev.onset + 60)).kind == "breeze_front"
+
+
 def test_wind_may_lead_the_air_but_not_trail_it():
     # Clear changes (z = 8 to 10: allowance coherence_min = 6 min). The wind turning 8 minutes before
     # the cooling and moistening is the front's order (the head's convergence ahead of the marine air,

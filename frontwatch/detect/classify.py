@@ -96,6 +96,8 @@ class Decision:
     note: str = ""  # for a non-call: which breeze-front conditions failed (near-miss reports, debugging)
     weak_held: bool = False  # waiting: a weak breeze-front call that holds, waiting to persist
     failed: tuple[str, ...] = ()  # for a non-call: the names of the conditions in `note`, for code to read
+    untimed: bool = False  # a breeze front whose channels' changes came apart in time: weak for the network
+    onset_shift_min: float = 0.0  # minutes after the candidate's onset that the call is timed at
 
 
 def _nz(x: float, default: float = 0.0) -> float:
@@ -124,11 +126,11 @@ def recent_turn(sig: Signature, halfwidth: float) -> bool:
 
 
 def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bool, averaging: int = 1,
-             weak_ok: bool = True, held_weak: bool = False) -> Decision:
+             weak_ok: bool = True, held_weak: bool = False, untimed_ok: bool = False) -> Decision:
     """The kind of change `sig` is (or None: wait, or nothing). `weak_ok` False: a weak breeze-front
     call cannot be confirmed (a network of one station), so none is made; a clear one may follow.
     `held_weak`: this candidate (the same onset) was a weak call waiting to persist at an earlier
-    minute (Decision.weak_held)."""
+    minute (Decision.weak_held). `untimed_ok`: the station is inland of another (see `untimed`)."""
     dT = _nz(sig.temp_change)
     dTd = _nz(sig.dewpoint_change)
     dp = _nz(sig.pressure_jump)
@@ -288,7 +290,20 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # in the half hour before the air changed (recent_turn).
     turned_in = edge_turn(sig.before_offset_deg, sig.after_offset_deg, halfwidth) or recent_turn(sig, halfwidth)
     weak = not ((wind_turned or (marine_air_only and turned_in)) and thermal)
-    failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent),
+    # Channels beyond the noise whose changes came apart in time: a weak front's change points
+    # scatter (Hinkley 1970, above) and its air may trail the wind; a look-alike's too. At an inland
+    # station of a network (`untimed_ok`: one nearer the water may have seen the front first), once
+    # the candidate can wait no longer (a clear signature formed meanwhile wins), a weak call that
+    # the network must confirm. Not at the shore, where the front is strongest and a clear call is
+    # the rule: there it pre-empted clear calls a few minutes later (docs/tuning.md, stop 15).
+    untimed = untimed_ok and not can_wait and not coherent and weak_ok and (sig_t or sig_d)
+    # ... timed by the latest of its significant channels: the passage is when all have changed
+    late_min = 0.0
+    if untimed and len(times) == 3:
+        sig_ch = [i for i, ok in ((0, sig_t), (1, sig_d), (2, sig.z_onshore >= 2.0)) if ok]
+        late_min = max(0.0, *(times[i] for i in sig_ch))
+    weak = weak or untimed
+    failed = [name for name, ok in (("daytime", daytime), ("thermal", thermal), ("coherent", coherent or untimed),
                                     ("wind", wind_ok), ("evidence", evidence >= s.breeze_min_evidence), ("dry", dry),
                                     ("breeze-strength", not squall),
                                     ("confirmable", weak_ok or not weak or persisted)) if not ok]
@@ -306,7 +321,9 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         margin = marine / s.breeze_min_marine_index_c + (halfwidth - sig.after_offset_deg) / halfwidth \
             + evidence / s.breeze_min_evidence
         return Decision("breeze_front", min(0.99, max(0.5, _logistic(margin - 2.0))), False,
-                        0.5 * evidence if weak else evidence, "weak: needs the network" if weak else "")
+                        0.5 * evidence if weak and not untimed else evidence,
+                        "weak: needs the network" if weak else "", untimed=untimed,
+                        onset_shift_min=late_min)
     note = "breeze front? not " + ", ".join(failed)
     # Waiting costs a full evaluation a minute, so wait only while the wind is moving onshore
     # (or is a running mean that lags): a thermal change alone, like a cloud shadow, is not a front.

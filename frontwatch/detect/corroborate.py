@@ -64,7 +64,7 @@ def is_weak(ev: PassageEvent, onshore_from_deg: float, halfwidth_deg: float, coa
     ('halted_offshore', or 'air_only' under a stuck vane); no usable wind after
     ('air_only'); a wind already onshore before, so the air alone told ('marine_air_only'), except
     at the shore where the wind swung from the sector's edge towards its middle (classify.edge_turn)."""
-    if ev.wind_dir_after_deg is None or ev.speed_after_ms is None:
+    if ev.untimed or ev.wind_dir_after_deg is None or ev.speed_after_ms is None:
         return True
     if ev.wind_dir_before_deg is not None:
         before = abs(angle_diff_deg(ev.wind_dir_before_deg, onshore_from_deg))

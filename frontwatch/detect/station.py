@@ -90,6 +90,8 @@ class StationDetector:
         self.others_quiet_until = -1e18
         self.last_onset: dict[str, float] = {}  # kind -> onset of the last event of that kind
         self.last_evidence: dict[str, float] = {}  # kind -> its evidence (a much stronger one may follow)
+        self.last_untimed = -1e18  # onset of the last call whose channels came apart in time
+        self.inland = False  # another station lies nearer the water on the same shore (set by the Engine)
         # Analysts' hook (frontwatch label): when a list, breeze-front candidates that failed exactly
         # one condition are appended as (station, onset, decided_at, note). Not part of the state.
         self.near_misses: list[tuple[str, float, float, str]] | None = None
@@ -223,7 +225,7 @@ class StationDetector:
         can_wait = now - t_o < wait_s
         t_o_real = float(t_real[o])
         held = self.pending and abs(t_o_real - self.weak_onset) <= HELD_ONSET_S
-        dec = classify(sig, st, self.halfwidth, can_wait, avg, not self.alone, held)
+        dec = classify(sig, st, self.halfwidth, can_wait, avg, not self.alone, held, self.inland)
         if dec.kind is None:
             self.pending = bool(dec.wait)
             if dec.weak_held:
@@ -238,6 +240,8 @@ class StationDetector:
                 self.near_misses.append((self.sid, t_o_real, float(now), "breeze front? not " + failed[0]))
             return None
         self.pending = False
+        if dec.onset_shift_min:  # an untimed change: timed by its latest channel (classify.py)
+            t_o_real += 60.0 * dec.onset_shift_min
         if (o == gap_after or t_o_real < self.others_quiet_until) and dec.kind != "breeze_front":
             # Across a silence only a breeze front is called: the other kinds are timed by their
             # onset, and an evening's cooling and turn across a gap looks like a land breeze.
@@ -247,12 +251,18 @@ class StationDetector:
         # (a cold front's pre-frontal veer, a breeze front after a cloud-shadow wobble). A cold
         # front's drier air is no breeze front's moister one going on: the breeze front that may
         # follow is held off as briefly (the other kinds for the whole refractory time).
-        quiet = 10.0 if dec.kind == "wind_shift" else float(st.refractory_min)
+        # An untimed call (a weak one the network may refuse) holds the station as briefly: the
+        # clear call that may form minutes later is then checked as a repeat of it (below).
+        quiet = 10.0 if dec.kind == "wind_shift" or dec.untimed else float(st.refractory_min)
         self.quiet_until = t_o_real + (10.0 if dec.kind == "cold_front" else quiet) * 60.0
         self.others_quiet_until = t_o_real + quiet * 60.0
         repeat = st.repeat_min if dec.kind in ("breeze_front", "land_breeze") else st.refractory_min
+        # (after an untimed call, any breeze front within repeat_min is its repeat, however much
+        # stronger: the same passage, better timed; the network drops it if the first stood)
         again = t_o_real - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
-            dec.evidence <= 1.5 * self.last_evidence.get(dec.kind, 0.0)
+            (dec.evidence <= 1.5 * self.last_evidence.get(dec.kind, 0.0) or
+             t_o_real - self.last_untimed < repeat * 60)
+        self.last_untimed = t_o_real if dec.untimed else self.last_untimed
         if again and not (self.emit_repeats and dec.kind == "breeze_front"):
             return None  # the same regime going on (a wobble of the onshore wind), not a new passage
         if not again:
@@ -275,7 +285,7 @@ class StationDetector:
             pressure_change_hpa=_opt(sig.pressure_change), speed_after_ms=_opt(sig.speed_after),
             gust_after_ms=_opt(sig.gust_after), temp_after_c=_opt(float(np.nanmean(arr[-3:, _TC]))
                                                                     if np.isfinite(arr[-3:, _TC]).any() else NAN),
-            repeat=again,
+            repeat=again, untimed=dec.untimed,
         )
 
     def _signature(self, arr: np.ndarray, rows: list[Any] | None, sp: Any, o: int, now: float, baseline_s: float,
@@ -380,7 +390,8 @@ class StationDetector:
         return {"ring": [[None if v != v else v for v in row] for row in self.ring], "gate": self.gate.state(),
                 "pending": bool(self.pending), "weak_onset": self.weak_onset, "quiet_until": self.quiet_until,
                 "others_quiet_until": self.others_quiet_until,
-                "last_onset": dict(self.last_onset), "last_evidence": dict(self.last_evidence)}
+                "last_onset": dict(self.last_onset), "last_evidence": dict(self.last_evidence),
+                "last_untimed": self.last_untimed}
 
     def restore(self, snap: dict[str, Any]) -> None:
         self.ring = deque((tuple(NAN if v is None else float(v) for v in row) for row in snap["ring"]),
@@ -393,6 +404,7 @@ class StationDetector:
         self.others_quiet_until = float(snap.get("others_quiet_until", self.quiet_until))  # (before stop 13: one)
         self.last_onset = {k: float(v) for k, v in snap["last_onset"].items()}
         self.last_evidence = {k: float(v) for k, v in snap["last_evidence"].items()}
+        self.last_untimed = float(snap.get("last_untimed", -1e18))  # (before stop 15: none)
 
 
 def _bridged(t: np.ndarray, dt: float) -> tuple[np.ndarray, int]:

@@ -56,3 +56,19 @@ def test_search_paths_give_replays_events(tmp_path: Path) -> None:
     # without the network step the kinds differ, so the comparison above exercises it
     unfinished = sorted(raw, key=lambda e: (e.detected_at, e.station))
     assert sorted(e.kind for e in unfinished) != sorted(e["kind"] for e in ref)
+
+
+def test_search_paths_report_weak_calls_confirmed_later(tmp_path: Path) -> None:
+    # Generated 'ordinary' seed 71: a weak call at the shore station is confirmed when the front
+    # stands inland 41 min later (corroborate.py); the search's paths report it as replay does.
+    from frontwatch.replay import run_replay
+    from frontwatch.tune import finish_events, run_detector
+
+    paths = sim.generate(sim.preset("ordinary", seed=71, days=2)).write(tmp_path)
+    cfg = load_network(paths["network.toml"])
+    ref = [e.to_dict() for e in run_replay([paths["observations.csv"]], cfg).events]
+    assert any("confirmed later" in e.get("note", "") for e in ref)
+    store, _, _ = cached_store([paths["observations.csv"]], cfg, None)
+    assert [e.to_dict() for e in run_detector(store, cfg)] == ref
+    raw = [e for part in store.station_parts(3) for e in run_detector(store, cfg, stations=part, finish=False)]
+    assert [e.to_dict() for e in finish_events(store, cfg, raw)] == ref

@@ -328,13 +328,7 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     """Corroboration and the site watch over the events in stream order (Engine.feed's tail)."""
     watch = eng.watch
     if watch is None:
-        got: list[tuple[int, Output]] = []
-        for g, e in raw:
-            x = eng.network_event(e)
-            if x is not None:
-                got.extend((g, y) for y in eng.late_events())
-                got.append((g, x))
-        return got
+        return [(g, x) for g, e in raw for x in eng.network_events(e)]
     out: list[tuple[int, Output]] = []
     upos = np.flatnonzero(used)
     ut = times[upos]
@@ -402,15 +396,12 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
         if synced < ci:
             last_seen.update(zip(ust_l[synced:ci], ut_l[synced:ci], strict=True))
         synced = ci + 1
-        late: list[PassageEvent] = []
         if ev is not None:
-            ev = eng.network_event(ev)
-            if ev is not None:
-                late = eng.late_events()
-                out.extend((g, x) for x in late)
-                out.append((g, ev))
-        for x in late:
-            out.extend((g, y) for y in watch.passage(x, t))
+            evs = eng.network_events(ev)
+            out.extend((g, x) for x in evs)
+            ev = evs[-1] if evs else None
+            for x in evs[:-1]:
+                out.extend((g, y) for y in watch.passage(x, t))
         o = Observation(st_c[k], t, wd_c[k], ws_c[k], gu_c[k], tc_c[k], td_c[k], p_c[k], rain_c[k])
         produced = watch.observe(o, ev)
         next_tick = watch._next_tick

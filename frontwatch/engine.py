@@ -105,36 +105,29 @@ class Engine:
         watch = self.watch
         if ev is None:
             return [] if watch is None else watch.observe(clean, None)
-        ev = self.network_event(ev)
-        if ev is None:
+        evs = self.network_events(ev)
+        if not evs:
             return [] if watch is None else watch.observe(clean, None)
-        late = self.late_events()
-        out: list[Output] = [*late, ev]
+        out: list[Output] = list(evs)
         if watch is not None:
-            for x in late:
+            for x in evs[:-1]:
                 out.extend(watch.passage(x, obs.time))
-            out.extend(watch.observe(clean, ev))
+            out.extend(watch.observe(clean, evs[-1]))
         return out
 
-    def network_event(self, ev: PassageEvent) -> PassageEvent | None:
+    def network_events(self, ev: PassageEvent) -> list[PassageEvent]:
         """A station detector's event through the network check (corroboration), counted by kind:
-        what feed() emits (frontwatch.batch calls it in the same stream order); None when the
-        network drops it (a repeat of a confirmed breeze front)."""
+        what feed() emits for it (frontwatch.batch and frontwatch.tune call it in the same stream
+        order). The event as the network reports it comes last, after the weak calls it confirmed
+        after the fact (corroborate.py, _confirm_late; in onset order); [] when the network drops
+        it (a repeat of a confirmed breeze front)."""
         got = self.corroborate.check(ev)
-        if got is not None:
-            self.stats.events[got.kind] += 1
-        return got
-
-    def late_events(self) -> list[PassageEvent]:
-        """Weak calls that the last network_event() confirmed after the fact (corroborate.py,
-        _confirm_late), counted: they are reported before that event, in onset order."""
-        late = self.corroborate.late
-        if not late:
+        if got is None:
             return []
-        self.corroborate.late = []
-        for x in late:
+        late, self.corroborate.late = self.corroborate.late, []
+        for x in (got, *late):
             self.stats.events[x.kind] += 1
-        return late
+        return [*late, got]
 
     def feed_many(self, records: Sequence[Observation]) -> list[Output]:
         """feed() over `records` in their order, in one call: the same outputs in the same order,

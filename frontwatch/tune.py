@@ -320,7 +320,7 @@ def run_detector(store: ObsStore, config: NetworkConfig, days: Iterable[int] | N
 
 def finish_events(store: ObsStore, config: NetworkConfig, raw: list[PassageEvent]) -> list[PassageEvent]:
     """Station detectors' events in the order the stream emitted them, through the Engine's
-    per-event network step (Engine.network_event, with the weak calls it confirms after the fact).
+    per-event network step (Engine.network_events, with the weak calls it confirms after the fact).
 
     An event is emitted on the record of its station at `detected_at`; that record's position in
     the store is the stream order (records at one time keep the files' order)."""
@@ -340,13 +340,7 @@ def finish_events(store: ObsStore, config: NetworkConfig, raw: list[PassageEvent
 
     ordered = sorted(raw, key=lambda e: (e.detected_at, position(e)))
     eng = Engine(config.model_copy(update={"sites": []}))
-    out: list[PassageEvent] = []
-    for e in ordered:
-        x = eng.network_event(e)
-        if x is not None:
-            out.extend(eng.late_events())  # weak calls this event confirmed, reported before it
-            out.append(x)
-    return out
+    return [x for e in ordered for x in eng.network_events(e)]
 
 
 # --------------------------------------------------------------------------------------------

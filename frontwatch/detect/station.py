@@ -262,7 +262,8 @@ class StationDetector:
         again = t_o_real - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
             (dec.evidence <= 1.5 * self.last_evidence.get(dec.kind, 0.0) or
              t_o_real - self.last_untimed < repeat * 60)
-        self.last_untimed = t_o_real if dec.untimed else self.last_untimed
+        if dec.untimed:
+            self.last_untimed = t_o_real
         if again and not (self.emit_repeats and dec.kind == "breeze_front"):
             return None  # the same regime going on (a wobble of the onshore wind), not a new passage
         if not again:

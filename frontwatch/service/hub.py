@@ -325,13 +325,10 @@ class DashboardHub:
         registered: the caller awaited something else between its own check and this call."""
         ev = asyncio.Event()
         key = (asyncio.get_running_loop(), ev)
-        with self._lock:
+        with self._lock:  # checked and registered at once: a _wake() cannot fall between them
+            if after is not None and (self.closed or self.seq > after):
+                return
             self._waiters.add(key)
-            missed = after is not None and (self.closed or self.seq > after)
-        if missed:
-            with self._lock:
-                self._waiters.discard(key)
-            return
         try:
             await asyncio.wait_for(ev.wait(), timeout)
         except TimeoutError:

@@ -348,7 +348,6 @@ def _network(eng: Engine, raw: list[tuple[int, PassageEvent]], codes: np.ndarray
     # front of this chunk (a superset: the loop asks the watch; refine_temp takes nothing outside)
     refining = _in_drop_windows(ut, ucode, id_list,
                                 [(st, r.onset) for st, r in watch.refining.items()]
-                                + [(st, e.onset) for st, e in eng.corroborate.pending_weak.items()]
                                 + [(e.station, e.onset) for _, e in raw if e.kind == "breeze_front"])
     minute = np.floor_divide(ut, 60.0)
     new_minute = np.ones(len(ut), dtype=bool)

@@ -233,11 +233,20 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
         lag = 0.5 * max(0, averaging - 1)
         zs = (sig.z_temp, sig.z_dewpoint, sig.z_onshore)
         idx = [i for i, ok in ((0, sig_t), (1, sig_d)) if ok]
-        if sig.z_onshore >= 2.0:
-            coherent = all(abs(times[2] - times[i]) <= max(allow(zs[2]), allow(zs[i]))
-                           * (WIND_LEADS_FACTOR if times[2] < times[i] else 1.0) + lag for i in idx)
+        def fits(i: int, j: int, lead: bool, slack: float = 0.0) -> bool:  # channel i's change time vs j's
+            return abs(times[j] - times[i]) <= max(allow(zs[j]), allow(zs[i])) * (WIND_LEADS_FACTOR if lead else 1.0) \
+                + slack
+        # The temperature's own change time is taken against the drift extrapolated from before it:
+        # where the warming levels off in the minutes before the front, it comes early. With the
+        # moisture and the wind changing together (marine air, which no cloud shadow brings), the
+        # temperature may lead them by as much as the wind may lead the air.
+        wind_t = sig.z_onshore >= 2.0
+        t_early = sig_t and sig_d and wind_t and times[0] < min(times[1], times[2]) and \
+            fits(1, 2, times[2] < times[1], lag)
+        if wind_t:
+            coherent = all(fits(i, 2, times[2] < times[i] or (i == 0 and t_early), lag) for i in idx)
         if coherent and len(idx) == 2:
-            coherent = abs(times[0] - times[1]) <= max(allow(zs[0]), allow(zs[1]))
+            coherent = fits(0, 1, t_early)
     dry = rain < 0.2  # rain at the change means convection, not a breeze front (DOMAIN.md section 3)
     # Where the large-scale wind already blew from the water (a bay's far side), the front shows in
     # the air alone: then a strong, simultaneous cooling and moistening under an onshore wind will do.

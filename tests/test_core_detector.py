@@ -345,27 +345,29 @@ def test_wind_may_lead_the_air_but_not_trail_it():
     assert far_ahead.kind != "breeze_front"  # 1.5 x 6 = 9 minutes is the most the wind may lead
 
 
-
 def test_temperature_may_lead_marine_air_that_came_with_the_wind():
     # The temperature's own change time is measured against the drift extrapolated from before the
     # change, so warming that levels off before the front puts it early. Cooling 8 minutes before a
     # moisture rise and an onshore turn that came together is that (coherent, as the wind may lead
-    # the air by 1.5 x 6 = 9 minutes); the same cooling ahead of a turn with no moisture rise is a
-    # cloud's shadow and an unrelated wobble (not one front), and 12 minutes is too far ahead.
+    # the air by 1.5 x 6 = 9 minutes); 12 minutes is too far ahead.
     s = config().detector
     turn = dict(dir_before=0.0, dir_after=180.0, speed_before=3.0, speed_after=3.0, spread_after=10.0,
                 turn_deg=180.0, onshore_before=-3.0, onshore_after=3.0, before_offset_deg=180.0,
                 after_offset_deg=0.0, change_offset_deg=0.0, change_speed=6.0, z_onshore=10.0, z_dewpoint=8.0)
     early_t = classify(_sig(change_times_min=(-8.0, 0.0, 0.0), **turn), s, 70.0, can_wait=False)
     assert early_t.kind == "breeze_front"
-    dry = classify(_sig(change_times_min=(-8.0, 0.0, 0.0), **{**turn, "z_dewpoint": 0.5, "dewpoint_change": 0.05}),
-                   s, 70.0, can_wait=False)
-    assert dry.kind != "breeze_front"
+    # A moisture rise within the noise (z = 1) cannot vouch for the cooling: timed with the turn the
+    # same signature is a front, with the cooling 8 minutes ahead it is not.
+    faint = {**turn, "z_dewpoint": 1.0, "dewpoint_change": 0.4}
+    assert classify(_sig(change_times_min=(0.0, 0.0, 0.0), **faint), s, 70.0, can_wait=False).kind == "breeze_front"
+    assert classify(_sig(change_times_min=(-8.0, 0.0, 0.0), **faint), s, 70.0, can_wait=False).kind != "breeze_front"
     too_early = classify(_sig(change_times_min=(-12.0, 0.0, 0.0), **turn), s, 70.0, can_wait=False)
     assert too_early.kind != "breeze_front"
-    # the moisture apart from the wind (9 minutes after it, beyond 6) does not vouch for the cooling
-    apart = classify(_sig(change_times_min=(-8.0, 9.0, 0.0), **turn), s, 70.0, can_wait=False)
+    # the moisture itself 7 minutes ahead of the turn (the air first, beyond its 6-minute allowance)
+    # does not vouch for the cooling
+    apart = classify(_sig(change_times_min=(-8.0, -7.0, 0.0), **turn), s, 70.0, can_wait=False)
     assert apart.kind != "breeze_front"
+
 
 # ---------------------------------------------------------------- reporting interval
 def _subsampled(every_min: int, seed: int):

@@ -520,6 +520,31 @@ def test_bare_detector_drops_repeats_and_the_engine_lets_the_network_decide():
     assert StationDetector(cfg.detector, emit_repeats=True).clone(cfg.stations[0]).emit_repeats
 
 
+def test_a_front_after_the_wind_went_back_offshore_is_no_repeat():
+    """A look-alike at 10:00 (the wind turns onshore with cooler, moister air, and 40 minutes later
+    all of it goes back) and the day's front at 12:00. The second call comes within repeat_min of
+    the first and is no stronger, but for the half hour before it the wind blew from the land: the
+    onshore regime of the first had ended, so it is a passage of its own, not a wobble of that
+    regime (a bare detector would otherwise drop it: frontwatch.detect.station)."""
+    from frontwatch.detect.station import StationDetector
+
+    obs, onset = passage("breeze", onset_min=720, seed=3)
+    day0 = obs[0].time
+    shaped = []
+    for o in obs:
+        m = int((o.time - day0) // 60)
+        if 600 <= m < 640:
+            f = min(1.0, (m - 599) / 4) * min(1.0, (640 - m) / 4)
+            o = o._replace(wind_dir_deg=(o.wind_dir_deg + 180.0 * f) % 360, temp_c=round(o.temp_c - 1.5 * f, 1),
+                           dewpoint_c=round(o.dewpoint_c + 1.5 * f, 1))
+        shaped.append(o)
+    cfg = config()
+    det = StationDetector(cfg.detector, station=cfg.stations[0])
+    fronts = [e for e in map(det.update, shaped) if e is not None and e.kind == "breeze_front"]
+    assert [round((e.onset - day0) / 60) for e in fronts] == [601, 721]
+    assert not fronts[1].repeat and abs(fronts[1].onset - onset) <= 120
+
+
 def test_event_reports_the_wind_from_before_a_turn_that_led_the_air():
     """A station whose wind turns onshore 10 minutes before the marine air arrives: the event's
     wind before is the offshore wind, not the already-turned one (frontwatch.detect.station)."""

@@ -259,7 +259,12 @@ class StationDetector:
         repeat = st.repeat_min if dec.kind in ("breeze_front", "land_breeze") else st.refractory_min
         # (after an untimed call, any breeze front within repeat_min is its repeat, however much
         # stronger: the same passage, better timed; the network drops it if the first stood)
-        again = t_o_real - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
+        # A breeze front after half an hour of wind from outside the onshore sector (not calm) is no
+        # wobble of an onshore regime going on: that regime ended, and this is a passage of its own
+        # (the call before may have been a look-alike, which must not hide the day's front).
+        ended = dec.kind == "breeze_front" and sig.dir_before == sig.dir_before and sig.early_dir == sig.early_dir \
+            and sig.before_offset_deg > self.halfwidth and sig.early_offset_deg > self.halfwidth
+        again = not ended and t_o_real - self.last_onset.get(dec.kind, -1e18) < repeat * 60 and \
             (dec.evidence <= 1.5 * self.last_evidence.get(dec.kind, 0.0) or
              t_o_real - self.last_untimed < repeat * 60)
         if dec.untimed:

@@ -369,6 +369,26 @@ def test_temperature_may_lead_marine_air_that_came_with_the_wind():
     assert apart.kind != "breeze_front"
 
 
+
+def test_marine_air_under_an_onshore_wind_that_slackened_is_a_weak_call():
+    # A large-scale wind already onshore (5 m/s from 40 deg off the onshore bearing) slackens behind
+    # the change to 0.8 m/s, still from the water's side, while the air turns clearly marine
+    # (T -3.0, Td +2.0): a light wind's bearing says little, so the air alone calls it, weakly (the
+    # network must confirm). Not with marine air under twice the usual index, nor when the light
+    # wind after blows from the land's half.
+    s = config().detector
+    base = dict(dir_before=140.0, dir_after=165.0, speed_before=5.0, speed_after=0.8, spread_after=40.0,
+                turn_deg=25.0, onshore_before=3.8, onshore_after=0.77, before_offset_deg=40.0,
+                after_offset_deg=15.0, change_offset_deg=20.0, change_speed=4.2, z_onshore=-6.0,
+                z_temp=-40.0, z_dewpoint=30.0, temp_change=-3.0, dewpoint_change=2.0, early_dir=140.0,
+                early_offset_deg=40.0)  # onshore for the half hour before too
+    d = classify(_sig(**base), s, 70.0, can_wait=False)
+    assert d.kind == "breeze_front" and d.note.startswith("weak")
+    mild = {**base, "temp_change": -0.6, "dewpoint_change": 0.6}
+    assert classify(_sig(**mild), s, 70.0, can_wait=False).kind != "breeze_front"
+    landward = {**base, "dir_after": 300.0, "after_offset_deg": 120.0, "onshore_after": -0.4}
+    assert classify(_sig(**landward), s, 70.0, can_wait=False).kind != "breeze_front"
+
 # ---------------------------------------------------------------- reporting interval
 def _subsampled(every_min: int, seed: int):
     from frontwatch.labels import label_from_dict

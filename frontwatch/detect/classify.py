@@ -253,7 +253,12 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # (Marine air that arrives saturated shows no dewpoint rise beyond the noise, see `saturated`: its
     # vanishing depression stands for the moisture then.)
     moist = sig_d or (has_moist and dry_measure)
-    marine_air_only = onshore_after and settled and sig_t and moist and marine >= 2.0 * s.breeze_min_marine_index_c
+    # ... also where that onshore wind slackened behind the change to under 1 m/s of onshore flow
+    # without turning offshore (a light wind's bearing says little: the air must say it all).
+    slackened = not came_onshore and _nz(sig.onshore_after) < 1.0 and sig.speed_after < sig.speed_before - 1.0 \
+        and (calm_after or sig.after_offset_deg <= 90.0)
+    marine_air_only = ((onshore_after and settled) or slackened) and sig_t and moist and \
+        marine >= 2.0 * s.breeze_min_marine_index_c
     # Where the vane cannot be read (its wind is missing, or a vane that reports the very same bearing
     # minute after minute while the cups turn: stuck, Zahumensky 2004), the air must say it alone,
     # as strongly as under an already-onshore wind. Not for a running mean, which is steady anyway.

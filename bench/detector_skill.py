@@ -48,7 +48,7 @@ def run_one(name: str, seed: int, days: int) -> dict[str, float]:
         "onset_bias": (rep.onset_error.mean or 0.0) / 60,
         "lookalike_bf": bad, "labels": rep.overall.a + rep.overall.c, "records": len(d),
         "a": rep.overall.a, "b": rep.overall.b, "c": rep.overall.c,
-        "delays": [d / 60 for d in rep.delay.values], "onsets": [abs(e) / 60 for e in rep.onset_error.values],
+        "delays": [x / 60 for x in rep.delay.values], "onsets": [abs(x) / 60 for x in rep.onset_error.values],
     }
 
 

@@ -369,7 +369,6 @@ def test_temperature_may_lead_marine_air_that_came_with_the_wind():
     assert apart.kind != "breeze_front"
 
 
-
 def test_marine_air_under_an_onshore_wind_that_slackened_is_a_weak_call():
     # A large-scale wind already onshore (5 m/s from 40 deg off the onshore bearing) slackens behind
     # the change to 0.8 m/s, still from the water's side, while the air turns clearly marine
@@ -388,6 +387,7 @@ def test_marine_air_under_an_onshore_wind_that_slackened_is_a_weak_call():
     assert classify(_sig(**mild), s, 70.0, can_wait=False).kind != "breeze_front"
     landward = {**base, "dir_after": 300.0, "after_offset_deg": 120.0, "onshore_after": -0.4}
     assert classify(_sig(**landward), s, 70.0, can_wait=False).kind != "breeze_front"
+
 
 # ---------------------------------------------------------------- reporting interval
 def _subsampled(every_min: int, seed: int):

@@ -1,7 +1,10 @@
 """A cheap per-observation gate: fast-vs-slow exponential means say 'something may be changing'.
 
 The full change-point scoring is costly (a window of arrays), so it runs only on minutes the gate
-opens. The gate only decides when to look, never what was found, and errs on the side of looking.
+opens. The gate decides when to look, not what was found, but how often it looks matters: each
+evaluation is another chance for a wobble to pass the classifier, so a more eager gate finds a few
+more fronts and many more false ones in noisy air (measured, docs/tuning.md "stop 18"). K2 is
+part of the detector's specificity, not only of its cost.
 Each channel's threshold scales with that channel's own recent wander (the typical size of its
 fast-minus-slow deviation over the last hour or so), so a gusty or drifting station does not
 keep the gate open and a quiet one is not missed. Written out channel by channel: it runs for

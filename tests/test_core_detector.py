@@ -212,6 +212,25 @@ def test_unconfirmed_weak_call_marks_nothing_seen():
     assert cor.check(_front("B", t0 + 1800, weak=True)).kind == "wind_shift"
 
 
+def test_stations_at_a_curved_shore_are_both_coastal():
+    # A round bay of radius 22 km centred at 40 N 0 E, the water inside: stations at its shore
+    # face its centre (onshore wind from the bay). P and Q sit at the water 25 deg apart round it
+    # (onshore from 10 and 35 deg); along either one's own bearing the other lies 22 (1 - cos 25)
+    # = 2.06 km towards the water, beyond COAST_MARGIN_KM, which made neither coastal. Along the
+    # pair's shore normal (the bisector) they are level. R lies 6 km behind the shore between them.
+    def at(bearing: float, r_km: float) -> tuple[float, float]:
+        b = math.radians(bearing)
+        return 40.0 + r_km * math.cos(b) / 111.195, r_km * math.sin(b) / (111.195 * math.cos(math.radians(40.0)))
+
+    pts = {"P": (190.0, 22.0), "Q": (215.0, 22.0), "R": (202.5, 28.0)}
+    net = parse_network({"network": {"name": "bay", "utc_offset_hours": 0}, "stations": [
+        {"id": k, "lat": at(b, r)[0], "lon": at(b, r)[1], "onshore_from_deg": (b + 180.0) % 360.0}
+        for k, (b, r) in pts.items()]})
+    cor = Corroborator(net)
+    assert cor.coastal == {"P": True, "Q": True, "R": False}
+    assert sorted(k for k, _ in cor.seaward["R"]) == ["P", "Q"]
+
+
 @pytest.mark.parametrize(("minutes", "kept"), [
     (14000 / 7.0 / 60, True),  # at DOMAIN.md's density-current check value, sqrt(g'h) = 7.00 m/s
     (14000 / 1.4 / 60, True),  # at the mean lake-breeze front speed, 1.4 m/s (Keeler & Kristovich 2012)

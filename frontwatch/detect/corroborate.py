@@ -2,8 +2,10 @@
 (DOMAIN.md section 1), so an inland station's call needs the network to have seen one recently.
 
 A station is 'coastal' when no other station facing the same way (onshore bearings within
-SAME_SHORE_DEG) lies more than COAST_MARGIN_KM towards the water from it (along its own onshore
-bearing: the water lies where the onshore wind blows from). A coastal
+SAME_SHORE_DEG) lies more than COAST_MARGIN_KM towards the water from it (along the pair's shore
+normal, the bisector of their onshore bearings: the water lies where the onshore wind blows from;
+on a curved shore either bearing alone puts each of two stations at the water seaward of the
+other). A coastal
 station's breeze front stands on its own. An inland station's stands when any other station called
 a breeze-like change (accepted or not) within the last `hours`, or when a station nearer the water
 saw a front earlier the same breeze day (within the daytime window) at a distance a density
@@ -95,13 +97,21 @@ class Corroborator:
         # station -> [(other station nearer the water on the same shore, its distance seaward, m)]
         self.seaward: dict[str, list[tuple[str, float]]] = {}
         for s in sts:
-            ex, ey = math.sin(math.radians(s.onshore_from_deg)), math.cos(math.radians(s.onshore_from_deg))
-            here = ex * xy[s.id][0] + ey * xy[s.id][1]
-            # only stations on the same stretch of shore (facing the same way) can be 'nearer the coast'
-            seaward = [(o.id, ex * xy[o.id][0] + ey * xy[o.id][1] - here) for o in sts if o.id != s.id and
-                       abs(angle_diff_deg(o.onshore_from_deg, s.onshore_from_deg)) <= SAME_SHORE_DEG]
-            self.seaward[s.id] = [(k, d) for k, d in seaward if d > COAST_MARGIN_KM * 1000.0]
-            self.coastal[s.id] = not self.seaward[s.id]
+            seaward = []
+            for o in sts:
+                dd = angle_diff_deg(o.onshore_from_deg, s.onshore_from_deg)
+                # only stations on the same stretch of shore (facing the same way) can be 'nearer the coast'
+                if o.id == s.id or abs(dd) > SAME_SHORE_DEG:
+                    continue
+                # ... measured along the pair's own shore normal, the bisector of their bearings: on a
+                # curved shore, along either station's bearing alone each of two stations at the water
+                # lies seaward of the other (on a straight coast the bearings agree and so does this)
+                m = math.radians(s.onshore_from_deg + 0.5 * dd)
+                d = math.sin(m) * (xy[o.id][0] - xy[s.id][0]) + math.cos(m) * (xy[o.id][1] - xy[s.id][1])
+                if d > COAST_MARGIN_KM * 1000.0:
+                    seaward.append((o.id, d))
+            self.seaward[s.id] = seaward
+            self.coastal[s.id] = not seaward
         # A coastal station with no other at the shore: a front forms there first, so no other
         # station can have seen it before this one's weak call (another's call before it is a
         # look-alike, and confirms nothing).

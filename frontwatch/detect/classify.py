@@ -253,10 +253,13 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # (Marine air that arrives saturated shows no dewpoint rise beyond the noise, see `saturated`: its
     # vanishing depression stands for the moisture then.)
     moist = sig_d or (has_moist and dry_measure)
+    # The wind behind the change has not turned into the land's (offshore) half: calm, or within 90
+    # deg of the onshore bearing.
+    not_offshore_after = calm_after or sig.after_offset_deg <= 90.0
     # ... also where that onshore wind slackened behind the change to under 1 m/s of onshore flow
     # without turning offshore (a light wind's bearing says little: the air must say it all).
     slackened = not came_onshore and _nz(sig.onshore_after) < 1.0 and sig.speed_after < sig.speed_before - 1.0 \
-        and (calm_after or sig.after_offset_deg <= 90.0)
+        and not_offshore_after
     marine_air_only = ((onshore_after and settled) or slackened) and sig_t and moist and \
         marine >= 2.0 * s.breeze_min_marine_index_c
     # Where the vane cannot be read (its wind is missing, or a vane that reports the very same bearing
@@ -293,7 +296,7 @@ def classify(sig: Signature, s: DetectorSettings, halfwidth: float, can_wait: bo
     # onshore already (see `weak` below).
     persisted = held_weak and not can_wait and light_air and sig_d and not wind_missing and \
         sig.speed_before == sig.speed_before and sig.before_offset_deg > 90.0 and \
-        (calm_after or sig.after_offset_deg <= 90.0)
+        not_offshore_after
     wind_ok = wind_turned or marine_air_only or air_only or halted_offshore or light_turn or stilled or persisted
     # A call on less than a clear turn and clearly marine air is weak: corroborate.py recognises it
     # by the same marks in the event and asks the network. Its evidence counts half, so that a clear
